@@ -6,5 +6,7 @@
 #![deny(missing_docs)]
 
 pub mod error;
+pub mod model;
+pub mod solver;
 
 pub use error::{Error, InputKind, Location, Result};

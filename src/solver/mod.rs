@@ -559,8 +559,9 @@ impl Solver {
                 });
             }
             let c = D_COEF * hs;
+            let adaptive = matches!(plan, StepPlan::Adaptive);
             let ok = if linear {
-                self.step_linear(model, t, hs, c, &mut last_c)
+                self.step_linear(model, t, hs, c, &mut last_c, adaptive)
             } else {
                 self.step(model, false, t, hs, c, &mut last_c, &mut stats)
             };
@@ -579,20 +580,24 @@ impl Solver {
                     continue;
                 }
             }
-            // Error norm with weights atol + rtol |u|.
+            // Error norm with weights atol + rtol |u| (adaptive steps only).
             let w = &self.work;
-            let mut sc = scale;
-            for x in &w.u {
-                sc = sc.max(x.abs());
-            }
-            let sc = if sc > 0.0 { sc } else { 1.0 };
-            let mut sum = 0.0;
-            for i in 0..n {
-                let wt = tol * (sc + w.u[i].abs().max(w.u_n[i].abs()));
-                let e = w.est[i] / wt;
-                sum += e * e;
-            }
-            let enorm = (sum / n as f64).sqrt();
+            let enorm = if matches!(plan, StepPlan::Adaptive) {
+                let mut sc = scale;
+                for x in &w.u {
+                    sc = sc.max(x.abs());
+                }
+                let sc = if sc > 0.0 { sc } else { 1.0 };
+                let mut sum = 0.0;
+                for i in 0..n {
+                    let wt = tol * (sc + w.u[i].abs().max(w.u_n[i].abs()));
+                    let e = w.est[i] / wt;
+                    sum += e * e;
+                }
+                (sum / n as f64).sqrt()
+            } else {
+                0.0
+            };
             let accept = !matches!(plan, StepPlan::Adaptive) || enorm <= 1.0;
             if !accept {
                 stats.rejected += 1;
@@ -792,8 +797,9 @@ impl Solver {
             return;
         }
         y[0] = w.jd[0] * x[0] + w.ju[0] * x[1] + self.op.linear_forcing(model, t, 0, n);
+        let (jl, jd, ju) = (&w.jl[..n], &w.jd[..n], &w.ju[..n]);
         for i in 1..n - 1 {
-            y[i] = w.jl[i] * x[i - 1] + w.jd[i] * x[i] + w.ju[i] * x[i + 1] + src;
+            y[i] = jl[i] * x[i - 1] + jd[i] * x[i] + ju[i] * x[i + 1] + src;
         }
         y[n - 1] = w.jl[n - 1] * x[n - 2]
             + w.jd[n - 1] * x[n - 1]
@@ -808,7 +814,15 @@ impl Solver {
     ///   (I − cJ) δ₁ = c (F_n + F(u_n, t+γh)),        u_γ = u_n + δ₁
     ///   (I − cJ) δ₂ = b δ₁ + c F(u_γ, t+h),          u_{n+1} = u_γ + δ₂
     /// ```
-    fn step_linear(&mut self, model: &Model, t: f64, h: f64, c: f64, last_c: &mut f64) -> bool {
+    fn step_linear(
+        &mut self,
+        model: &Model,
+        t: f64,
+        h: f64,
+        c: f64,
+        last_c: &mut f64,
+        estimate: bool,
+    ) -> bool {
         let n = self.work.u.len();
         let b_c = (1.0 - GAMMA).powi(2) / (GAMMA * (2.0 - GAMMA));
         if c != *last_c {
@@ -829,9 +843,10 @@ impl Solver {
             w.delta[i] = c * (w.f_n[i] + tmp[i]);
         }
         w.fact.solve(&mut w.delta);
+        let inv_c = 1.0 / c;
         for i in 0..n {
             w.u_g[i] = w.u_n[i] + w.delta[i];
-            w.f_g[i] = w.delta[i] / c - w.f_n[i];
+            w.f_g[i] = w.delta[i] * inv_c - w.f_n[i];
             w.est[i] = b_c * w.delta[i]; // b δ₁, kept for F_{n+1}
         }
         {
@@ -844,16 +859,22 @@ impl Solver {
             w.delta[i] = w.est[i] + c * tmp[i];
         }
         w.fact.solve(&mut w.delta);
+        let inv_c = 1.0 / c;
         for i in 0..n {
             w.u[i] = w.u_g[i] + w.delta[i];
-            w.f_1[i] = (w.delta[i] - w.est[i]) / c;
-            w.est[i] = 2.0
-                * ERR_COEF
-                * h
-                * (w.f_n[i] / GAMMA - w.f_g[i] / (GAMMA * (1.0 - GAMMA))
-                    + w.f_1[i] / (1.0 - GAMMA));
+            w.f_1[i] = (w.delta[i] - w.est[i]) * inv_c;
         }
-        w.fact.solve(&mut w.est);
+        if estimate {
+            let (e0, e1, e2) = (
+                2.0 * ERR_COEF * h / GAMMA,
+                2.0 * ERR_COEF * h / (GAMMA * (1.0 - GAMMA)),
+                2.0 * ERR_COEF * h / (1.0 - GAMMA),
+            );
+            for i in 0..n {
+                w.est[i] = e0 * w.f_n[i] - e1 * w.f_g[i] + e2 * w.f_1[i];
+            }
+            w.fact.solve(&mut w.est);
+        }
         w.fe = tmp;
         w.u.iter().all(|x| x.is_finite())
     }

@@ -8,3 +8,4 @@
 pub mod error;
 
 pub use error::{Error, InputKind, Location, Result};
+pub mod analytic;

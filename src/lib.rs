@@ -9,3 +9,4 @@ pub mod error;
 
 pub use error::{Error, InputKind, Location, Result};
 pub mod analytic;
+pub mod shortcuts;

@@ -312,6 +312,17 @@ fn robin_uptake_matches_table_and_half_times() {
         let t = analytic::tau_half(Shape::RobinSheet { biot: bi }).unwrap();
         assert_rel(t, num(v), 1e-10, &format!("Robin half-time Bi={bi}"));
     }
+    // Half-time at the extremes: Bi -> inf gives the sheet value 0.196730739524 (README §1b,
+    // computed); Bi -> 0 gives ln 2 / beta_1^2 with beta_1^2 = Bi (1 - Bi/3) (common practice).
+    let t = analytic::tau_half(Shape::RobinSheet { biot: 1e6 }).unwrap();
+    assert_rel(t, 0.196730739524, 2e-5, "Robin half-time Bi = 1e6");
+    let t = analytic::tau_half(Shape::RobinSheet { biot: 1e-6 }).unwrap();
+    assert_rel(
+        t,
+        2f64.ln() / (1e-6 * (1.0 - 1e-6 / 3.0)),
+        1e-6,
+        "Robin half-time Bi = 1e-6",
+    );
     // Limit Bi -> inf: the constant-surface sheet (README §1b: Bi = 1e6 within 1e-5).
     for t in [0.01, 0.1, 0.5, 2.0] {
         let m = robin::uptake(1e6, t).unwrap();

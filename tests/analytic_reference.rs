@@ -529,6 +529,46 @@ fn erfc_profile_reproduces_erf_table() {
 }
 
 #[test]
+fn special_functions_full_precision() {
+    use fickfit::analytic::special;
+    // erf_erfc.csv (computed, mpmath, 16 digits): erf and erfc to about 1e-15 relative.
+    for r in rows(ERF) {
+        assert_rel(
+            special::erf(r[0]),
+            r[1],
+            2e-16 / r[1] + 1e-15,
+            &format!("erf({})", r[0]),
+        );
+        assert_rel(special::erfc(r[0]), r[2], 2e-15, &format!("erfc({})", r[0]));
+        assert_rel(
+            special::erfc(-r[0]),
+            2.0 - r[2],
+            1e-15,
+            "erfc(-x) = 2 - erfc(x)",
+        );
+        assert_rel(
+            special::erfcx(r[0]),
+            (r[0] * r[0]).exp() * r[2],
+            1e-14,
+            "erfcx",
+        );
+    }
+    // Large argument: erfcx(x) ~ (1/(x sqrt(pi))) (1 - 1/(2x^2) + 3/(4x^4) - 15/(8x^6))
+    // (A&S 7.1.23); the next term is below 1e-16 relative at x = 100.
+    let x: f64 = 100.0;
+    let y = 1.0 / (2.0 * x * x);
+    let asym = (1.0 - y + 3.0 * y * y - 15.0 * y.powi(3)) / (x * PI.sqrt());
+    assert_rel(special::erfcx(x), asym, 1e-15, "erfcx(100)");
+    // ierfc: ierfc(0) = 1/sqrt(pi) and d ierfc/dz = -erfc z (A&S 7.2.1, common practice).
+    assert_rel(special::ierfc(0.0), 1.0 / PI.sqrt(), 1e-16, "ierfc(0)");
+    for z in [0.3, 1.0, 1.99, 2.01, 3.0] {
+        let h = 1e-5;
+        let deriv = (special::ierfc(z + h) - special::ierfc(z - h)) / (2.0 * h);
+        assert_rel(deriv, -special::erfc(z), 1e-8, &format!("ierfc'({z})"));
+    }
+}
+
+#[test]
 fn thin_film_gaussians_match_table() {
     // thin_film_gaussian.csv: computed (mpmath), M = 1, D = 1e-14 m^2/s, t = 3600 s.
     let (d, t) = (1e-14, 3600.0);

@@ -1,5 +1,9 @@
 //! Half-time method and initial `√t` slope for uptake (sorption or desorption) curves.
 //!
+//! The data are the amount exchanged since the start, rising from 0 towards `M_∞`; for a
+//! desorption run pass the amount lost (`M_0 − M_t`). For constant D the desorption curve
+//! equals the sorption curve (Crank ch. 4).
+//!
 //! Half-time: with `t½` the time at which `M_t/M_∞ = 1/2`,
 //! `D = τ½ ℓ² / t½`, where `τ½` is the exact root of the uptake series
 //! ([`crate::analytic::tau_half`]): 0.0491826848809 for a plane sheet of full thickness `L`

@@ -10,3 +10,5 @@ pub mod model;
 pub mod solver;
 
 pub use error::{Error, InputKind, Location, Result};
+pub mod analytic;
+pub mod shortcuts;

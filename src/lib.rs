@@ -5,6 +5,8 @@
 //! report. SI units everywhere inside; units are converted at the edges.
 #![deny(missing_docs)]
 
+pub mod data;
 pub mod error;
+pub mod units;
 
 pub use error::{Error, InputKind, Location, Result};

@@ -900,8 +900,8 @@ fn sigma_unit(h: &Header, col: usize, spec: &ColumnSpec, value: &Unit) -> Result
     h.unit(col, spec, Some(value.quantity()))
 }
 
-/// Strictly increasing times within `rows`; a row equal to an earlier one in every read
-/// column is a duplicate.
+/// Strictly increasing times within `rows`; a row equal to the row before it in every read
+/// column is a duplicate (any other non-increase is `TimeNotIncreasing`).
 #[allow(clippy::too_many_arguments)]
 fn check_increasing(
     rows: &[usize],
@@ -919,7 +919,7 @@ fn check_increasing(
             && values.iter().all(|v| v.get(a) == v.get(b))
             && sigma.is_none_or(|s| s.get(a) == s.get(b))
     };
-    for (k, w) in rows.windows(2).enumerate() {
+    for w in rows.windows(2) {
         let [prev, cur] = *w else { continue };
         let (Some(&tp), Some(&tc)) = (time.get(prev), time.get(cur)) else {
             continue;
@@ -928,12 +928,9 @@ fn check_increasing(
             continue;
         }
         let lc = lines.get(cur).copied().unwrap_or(0);
-        // Same row earlier in this series?
-        if let Some(&dup) = rows
-            .get(..=k)
-            .and_then(|r| r.iter().rev().find(|&&r| same(r, cur)))
-        {
-            let ld = lines.get(dup).copied().unwrap_or(0);
+        // The same row twice in a row (pasted twice)?
+        if same(prev, cur) {
+            let ld = lines.get(prev).copied().unwrap_or(0);
             return Err(Error::input(
                 InputKind::DuplicateRow,
                 header.cell(lc, tcol),

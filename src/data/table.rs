@@ -1,18 +1,21 @@
 //! The CSV table reader shared by every data shape: header, delimiter, comments, cells → SI.
 //!
-//! The reader streams the file once. Before handing the bytes to the `csv` crate it reads the
-//! leading comment lines and the header line into a small prefix buffer (to strip a UTF-8 BOM
-//! and to detect the delimiter), then chains that prefix with the rest of the stream, so line
-//! numbers reported by the `csv` crate are the file's own. Every requested column is parsed
-//! straight into one `Vec<f64>` in SI units; no other copy of the data is held.
+//! The reader streams the file once, line by line, through a filter that drops comment and
+//! blank lines, strips a UTF-8 BOM and normalises CRLF, and remembers where each kept line was
+//! in the file; the `csv` crate tokenises the filtered stream (quotes, delimiters), and its
+//! record line numbers are mapped back to file lines. The delimiter is detected on the first
+//! kept line (the header). Every requested column is parsed straight into one `Vec<f64>` in SI
+//! units; no other copy of the data is held.
 //!
 //! Delimiter rule: in the header line, outside double quotes, the most frequent of tab,
 //! semicolon and comma wins; ties go to tab, then semicolon, then comma; a header with none of
 //! them is a single column (comma).
 
+use std::cell::RefCell;
 use std::collections::HashMap;
-use std::io::{BufRead, BufReader, Cursor, Read};
+use std::io::{BufRead, BufReader, Read};
 use std::path::{Path, PathBuf};
+use std::rc::Rc;
 
 use crate::error::{Error, InputKind, Location, Result};
 use crate::units::{split_header, Quantity, Unit};
@@ -203,7 +206,6 @@ where
     R: Read,
     F: FnOnce(&Header) -> Result<Vec<Request>>,
 {
-    let mut src = BufReader::with_capacity(1 << 16, src);
     let unreadable = |e: std::io::Error| {
         Error::input(
             InputKind::Unreadable,
@@ -211,52 +213,26 @@ where
             format!("cannot read the file: {e}"),
         )
     };
-
-    // Prefix: BOM, leading comment/blank lines and the header line.
-    let mut prefix: Vec<u8> = Vec::new();
-    let mut header_line: Option<Vec<u8>> = None;
-    let mut first = true;
-    let mut buf = Vec::new();
-    loop {
-        buf.clear();
-        let n = src.read_until(b'\n', &mut buf).map_err(unreadable)?;
-        if n == 0 {
-            break;
-        }
-        let mut line: &[u8] = &buf;
-        if first {
-            first = false;
-            if line.starts_with(&[0xFF, 0xFE]) || line.starts_with(&[0xFE, 0xFF]) {
-                return Err(Error::input(
-                    InputKind::Encoding,
-                    Location::file(file).with_line(1),
-                    "the file is UTF-16 text; save it as UTF-8 (or plain CSV) and try again",
-                ));
-            }
-            if let Some(rest) = line.strip_prefix(&[0xEF, 0xBB, 0xBF]) {
-                line = rest;
-            }
-        }
-        prefix.extend_from_slice(line);
-        let content = trim_ascii(line);
-        if content.is_empty() || content.starts_with(b"#") {
-            continue;
-        }
-        header_line = Some(line.to_vec());
-        break;
-    }
-    let Some(header_bytes) = header_line else {
+    let map = Rc::new(RefCell::new(LineMap::default()));
+    let mut filter = LineFilter::new(src, Rc::clone(&map));
+    if !filter.next_line().map_err(unreadable)? {
         return Err(Error::input(
             InputKind::Empty,
             Location::file(file),
             "the file has no data (it is empty or holds only comments and blank lines); \
              check that the right file is named",
         ));
-    };
-
+    }
+    if filter.utf16 {
+        return Err(Error::input(
+            InputKind::Encoding,
+            Location::file(file).with_line(1),
+            "the file is UTF-16 text; save it as UTF-8 (or plain CSV) and try again",
+        ));
+    }
     let delimiter = match opts.delimiter {
         Some(d) => d,
-        None => detect_delimiter(&header_bytes),
+        None => detect_delimiter(filter.current()),
     };
     if opts.decimal_comma && delimiter == b',' {
         return Err(Error::setting(
@@ -271,7 +247,11 @@ where
         .flexible(true)
         .comment(Some(b'#'))
         .delimiter(delimiter)
-        .from_reader(Cursor::new(prefix).chain(src));
+        .from_reader(filter);
+    let line_of = |rec: &csv::ByteRecord| {
+        let kept = rec.position().map(|p| p.line()).unwrap_or(1);
+        map.borrow().original(kept)
+    };
     let csv_err = |e: csv::Error| match e.into_kind() {
         csv::ErrorKind::Io(io) => unreadable(io),
         other => Error::input(
@@ -285,7 +265,7 @@ where
     let mut rec = csv::ByteRecord::new();
     let mut header = None;
     while rdr.read_byte_record(&mut rec).map_err(csv_err)? {
-        let line = rec.position().map(|p| p.line()).unwrap_or(1);
+        let line = line_of(&rec);
         if rec.iter().all(|c| trim_ascii(c).is_empty()) {
             continue;
         }
@@ -317,7 +297,7 @@ where
     let mut scratch = String::new();
 
     while rdr.read_byte_record(&mut rec).map_err(csv_err)? {
-        let line = rec.position().map(|p| p.line()).unwrap_or(0);
+        let line = line_of(&rec);
         if rec.iter().all(|c| trim_ascii(c).is_empty()) {
             continue; // blank line or a line of delimiters only
         }
@@ -384,6 +364,123 @@ where
         out.lines.push(line);
     }
     Ok((header, out))
+}
+
+/// Maps line numbers of the filtered stream (what the `csv` crate counts) to file lines.
+#[derive(Debug, Default)]
+struct LineMap {
+    /// `(kept line, file line)` at every point where the offset between them changes.
+    jumps: Vec<(u64, u64)>,
+}
+
+impl LineMap {
+    fn record(&mut self, kept: u64, orig: u64) {
+        let same = self
+            .jumps
+            .last()
+            .is_some_and(|&(k, o)| o.wrapping_sub(k) == orig.wrapping_sub(kept));
+        if !same {
+            self.jumps.push((kept, orig));
+        }
+    }
+
+    fn original(&self, kept: u64) -> u64 {
+        let i = self.jumps.partition_point(|&(k, _)| k <= kept);
+        match i.checked_sub(1).and_then(|i| self.jumps.get(i)) {
+            Some(&(k, o)) => o + (kept - k),
+            None => kept,
+        }
+    }
+}
+
+/// A reader that drops comment lines (first non-blank byte `#`) and blank lines outside
+/// quoted fields, strips a UTF-8 BOM and turns CRLF into LF, recording where each kept line
+/// was in the file. The `csv` crate then sees no line it would skip, so its line count of a
+/// record's start is exact in the filtered stream and [`LineMap`] turns it into the file's.
+struct LineFilter<R: Read> {
+    src: BufReader<R>,
+    buf: Vec<u8>,
+    pos: usize,
+    orig: u64,
+    kept: u64,
+    in_quotes: bool,
+    first: bool,
+    /// The file starts with a UTF-16 byte-order mark.
+    utf16: bool,
+    map: Rc<RefCell<LineMap>>,
+}
+
+impl<R: Read> LineFilter<R> {
+    fn new(src: R, map: Rc<RefCell<LineMap>>) -> Self {
+        LineFilter {
+            src: BufReader::with_capacity(1 << 16, src),
+            buf: Vec::new(),
+            pos: 0,
+            orig: 0,
+            kept: 0,
+            in_quotes: false,
+            first: true,
+            utf16: false,
+            map,
+        }
+    }
+
+    /// The unread part of the current line.
+    fn current(&self) -> &[u8] {
+        self.buf.get(self.pos..).unwrap_or(&[])
+    }
+
+    /// Load the next kept line; false at the end of the input.
+    fn next_line(&mut self) -> std::io::Result<bool> {
+        loop {
+            self.buf.clear();
+            self.pos = 0;
+            if self.src.read_until(b'\n', &mut self.buf)? == 0 {
+                return Ok(false);
+            }
+            self.orig += 1;
+            if self.first {
+                self.first = false;
+                if self.buf.starts_with(&[0xFF, 0xFE]) || self.buf.starts_with(&[0xFE, 0xFF]) {
+                    self.utf16 = true;
+                } else if self.buf.starts_with(&[0xEF, 0xBB, 0xBF]) {
+                    self.buf.drain(..3);
+                }
+            }
+            if !self.in_quotes {
+                let content = trim_ascii(&self.buf);
+                if content.is_empty() || content.starts_with(b"#") {
+                    continue;
+                }
+            }
+            let quotes = self.buf.iter().filter(|&&b| b == b'"').count();
+            if quotes % 2 == 1 {
+                self.in_quotes = !self.in_quotes;
+            }
+            if self.buf.ends_with(b"\r\n") {
+                let n = self.buf.len();
+                self.buf.remove(n - 2);
+            }
+            self.kept += 1;
+            self.map.borrow_mut().record(self.kept, self.orig);
+            return Ok(true);
+        }
+    }
+}
+
+impl<R: Read> Read for LineFilter<R> {
+    fn read(&mut self, out: &mut [u8]) -> std::io::Result<usize> {
+        if self.pos >= self.buf.len() && !self.next_line()? {
+            return Ok(0);
+        }
+        let rest = self.current();
+        let n = rest.len().min(out.len());
+        if let (Some(dst), Some(src)) = (out.get_mut(..n), rest.get(..n)) {
+            dst.copy_from_slice(src);
+        }
+        self.pos += n;
+        Ok(n)
+    }
 }
 
 fn parse_header(rec: &csv::ByteRecord, file: &Path, line: u64) -> Result<Header> {

@@ -613,6 +613,7 @@ proptest! {
         cases: 256,
         failure_persistence: None,
         rng_algorithm: proptest::test_runner::RngAlgorithm::ChaCha,
+        rng_seed: proptest::test_runner::RngSeed::Fixed(0x00F1_C4F1),
         ..ProptestConfig::default()
     })]
 

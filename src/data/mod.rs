@@ -255,20 +255,6 @@ pub fn read_time_series_from<R: Read>(
         .map(|c| c.text.clone())
         .unwrap_or_default();
 
-    // Group rows by run (one group when there is no run column).
-    let groups: Vec<(Option<String>, Vec<usize>)> = match (c.labels.first(), c.label_names.first())
-    {
-        (Some(ids), Some(names)) => {
-            let mut g: Vec<Vec<usize>> = vec![Vec::new(); names.len()];
-            for (row, &id) in ids.iter().enumerate() {
-                if let Some(v) = g.get_mut(id as usize) {
-                    v.push(row);
-                }
-            }
-            names.iter().cloned().map(Some).zip(g).collect()
-        }
-        _ => vec![(None, (0..c.lines.len()).collect())],
-    };
     if c.lines.is_empty() {
         return Err(Error::input(
             InputKind::Empty,
@@ -276,56 +262,99 @@ pub fn read_time_series_from<R: Read>(
             "the file has a header but no data rows; check that the right file is named",
         ));
     }
+    // Split rows by run. Without a run column the column vectors are moved, not copied.
+    let lines = std::mem::take(&mut c.lines);
+    let parts: Vec<Part> = match (c.labels.first(), c.label_names.first()) {
+        (Some(ids), Some(names)) => {
+            let mut parts: Vec<Part> = names
+                .iter()
+                .map(|n| Part {
+                    run: Some(n.clone()),
+                    time: Vec::new(),
+                    value: Vec::new(),
+                    sigma: sigma.as_ref().map(|_| Vec::new()),
+                    line: Vec::new(),
+                })
+                .collect();
+            for (row, &id) in ids.iter().enumerate() {
+                let (Some(p), Some(&t), Some(&v), Some(&l)) = (
+                    parts.get_mut(id as usize),
+                    time.get(row),
+                    value.get(row),
+                    lines.get(row),
+                ) else {
+                    return Err(Error::Internal("run index out of range".into()));
+                };
+                p.time.push(t);
+                p.value.push(v);
+                if let (Some(ps), Some(s)) =
+                    (p.sigma.as_mut(), sigma.as_ref().and_then(|s| s.get(row)))
+                {
+                    ps.push(*s);
+                }
+                p.line.push(l);
+            }
+            parts
+        }
+        _ => vec![Part {
+            run: None,
+            time,
+            value,
+            sigma,
+            line: lines,
+        }],
+    };
 
-    let mut out = Vec::with_capacity(groups.len());
+    let mut out = Vec::with_capacity(parts.len());
     let mut warnings = Vec::new();
-    for (run, rows) in groups {
-        let what = match &run {
+    for p in parts {
+        let what = match &p.run {
             Some(r) => format!("run '{r}'"),
             None => "series".to_string(),
         };
         check_increasing(
-            &rows,
-            &time,
-            &[&value],
-            sigma.as_deref(),
-            &c.lines,
+            &p.time,
+            &[&p.value],
+            p.sigma.as_deref(),
+            &p.line,
             &header,
             info.time,
             &time_unit,
             &what,
         )?;
-        let mut ts = TimeSeries {
+        let Part {
             run,
-            time: Vec::with_capacity(rows.len()),
-            value: Vec::with_capacity(rows.len()),
-            sigma: sigma.as_ref().map(|_| Vec::with_capacity(rows.len())),
-            line: Vec::with_capacity(rows.len()),
+            mut time,
+            mut value,
+            mut sigma,
+            mut line,
+        } = p;
+        // Times increase, so the baseline rows (t < t0) come first.
+        let split = match opts.time_origin {
+            Some(t0) => time.partition_point(|&t| t < t0),
+            None => 0,
+        };
+        let mut baseline = Baseline {
+            time: time.drain(..split).collect(),
+            value: value.drain(..split).collect(),
+            sigma: sigma
+                .as_mut()
+                .map(|s| s.drain(..split.min(s.len())).collect()),
+            line: line.drain(..split).collect(),
+        };
+        for t in time.iter_mut().chain(baseline.time.iter_mut()) {
+            *t -= t0;
+        }
+        let ts = TimeSeries {
+            run,
+            time,
+            value,
+            sigma,
+            line,
             value_unit: value_unit.clone(),
             value_column: value_column.clone(),
-            baseline: Baseline {
-                sigma: sigma.as_ref().map(|_| Vec::new()),
-                ..Baseline::default()
-            },
+            baseline,
         };
-        for &r in &rows {
-            let (Some(&t), Some(&v), Some(&l)) = (time.get(r), value.get(r), c.lines.get(r)) else {
-                return Err(Error::Internal("row index out of range".into()));
-            };
-            let s = sigma.as_ref().and_then(|s| s.get(r).copied());
-            let (tv, vv, sv, lv) = if opts.time_origin.is_some() && t < t0 {
-                let b = &mut ts.baseline;
-                (&mut b.time, &mut b.value, &mut b.sigma, &mut b.line)
-            } else {
-                (&mut ts.time, &mut ts.value, &mut ts.sigma, &mut ts.line)
-            };
-            tv.push(t - t0);
-            vv.push(v);
-            if let (Some(sv), Some(s)) = (sv.as_mut(), s) {
-                sv.push(s);
-            }
-            lv.push(l);
-        }
         if ts.time.len() < opts.min_points {
             return Err(Error::input(
                 InputKind::TooFewPoints,
@@ -361,6 +390,15 @@ pub fn read_time_series_from<R: Read>(
         warnings,
         file: name.to_path_buf(),
     })
+}
+
+/// One series' columns before the time origin is applied.
+struct Part {
+    run: Option<String>,
+    time: Vec<f64>,
+    value: Vec<f64>,
+    sigma: Option<Vec<f64>>,
+    line: Vec<u64>,
 }
 
 #[derive(Default)]
@@ -518,10 +556,9 @@ pub fn read_sensor_table_from<R: Read>(
     let mut nums = std::mem::take(&mut c.numbers).into_iter();
     let time = nums.next().unwrap_or_default();
     let values: Vec<Vec<f64>> = nums.collect();
-    let rows: Vec<usize> = (0..c.lines.len()).collect();
     let vrefs: Vec<&[f64]> = values.iter().map(Vec::as_slice).collect();
     check_increasing(
-        &rows, &time, &vrefs, None, &c.lines, &header, tcol, &tunit, "table",
+        &time, &vrefs, None, &c.lines, &header, tcol, &tunit, "table",
     )?;
 
     let t0 = opts.time_origin.unwrap_or(0.0);
@@ -530,14 +567,19 @@ pub fn read_sensor_table_from<R: Read>(
     } else {
         0
     };
-    let (bt, mt) = time.split_at(split);
-    let (bl, ml) = c.lines.split_at(split);
+    let mut time = time;
+    let mut line = std::mem::take(&mut c.lines);
+    let mut baseline_time: Vec<f64> = time.drain(..split).collect();
+    let baseline_line: Vec<u64> = line.drain(..split).collect();
+    for t in time.iter_mut().chain(baseline_time.iter_mut()) {
+        *t -= t0;
+    }
     let mut table = SensorTable {
-        time: mt.iter().map(|t| t - t0).collect(),
-        line: ml.to_vec(),
+        time,
+        line,
         sensors: Vec::with_capacity(plan.len()),
-        baseline_time: bt.iter().map(|t| t - t0).collect(),
-        baseline_line: bl.to_vec(),
+        baseline_time,
+        baseline_line,
     };
     if table.time.len() < opts.min_points {
         return Err(Error::input(
@@ -555,7 +597,8 @@ pub fn read_sensor_table_from<R: Read>(
     let loc = |i: usize| header.cell(table.line.get(i).copied().unwrap_or(0), tcol);
     warnings.extend(checks::irregular_sampling(&table.time, &loc, "table"));
     for ((col, position, unit), mut v) in plan.into_iter().zip(values) {
-        let main = v.split_off(split);
+        let baseline_value: Vec<f64> = v.drain(..split).collect();
+        let main = v;
         let column = header
             .cols
             .get(col)
@@ -572,7 +615,7 @@ pub fn read_sensor_table_from<R: Read>(
             column,
             position,
             value: main,
-            baseline_value: v,
+            baseline_value,
             unit,
         });
     }
@@ -904,7 +947,6 @@ fn sigma_unit(h: &Header, col: usize, spec: &ColumnSpec, value: &Unit) -> Result
 /// column is a duplicate (any other non-increase is `TimeNotIncreasing`).
 #[allow(clippy::too_many_arguments)]
 fn check_increasing(
-    rows: &[usize],
     time: &[f64],
     values: &[&[f64]],
     sigma: Option<&[f64]>,
@@ -919,14 +961,12 @@ fn check_increasing(
             && values.iter().all(|v| v.get(a) == v.get(b))
             && sigma.is_none_or(|s| s.get(a) == s.get(b))
     };
-    for w in rows.windows(2) {
-        let [prev, cur] = *w else { continue };
-        let (Some(&tp), Some(&tc)) = (time.get(prev), time.get(cur)) else {
-            continue;
-        };
+    for (prev, w) in time.windows(2).enumerate() {
+        let [tp, tc] = *w else { continue };
         if tc > tp {
             continue;
         }
+        let cur = prev + 1;
         let lc = lines.get(cur).copied().unwrap_or(0);
         // The same row twice in a row (pasted twice)?
         if same(prev, cur) {

@@ -6,5 +6,7 @@
 #![deny(missing_docs)]
 
 pub mod error;
+pub mod fit;
+pub mod stats;
 
 pub use error::{Error, InputKind, Location, Result};

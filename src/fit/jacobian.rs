@@ -82,3 +82,43 @@ pub fn jacobian<P: ResidualProblem>(
     }
     Some(jac)
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::fit::params::{ParamSet, ParamSpec};
+    use crate::fit::problem::FnProblem;
+
+    #[test]
+    fn differences_match_the_analytic_jacobian() {
+        // r_i = y_i − a exp(−k x_i) in internal coordinates (a, ln k):
+        // ∂r/∂a = −exp(−k x), ∂r/∂(ln k) = a k x exp(−k x) (hand derivation)
+        let x: Vec<f64> = (0..8).map(|i| 0.5 * i as f64).collect();
+        let xs = x.clone();
+        let prob = FnProblem::new(8, move |p: &[f64], out: &mut [f64]| {
+            for i in 0..8 {
+                out[i] = 1.0 - p[0] * (-p[1] * xs[i]).exp();
+            }
+            Ok(())
+        });
+        let set = ParamSet::new(vec![
+            ParamSpec::new("a", "-", 2.0),
+            ParamSpec::new("k", "1/s", 0.7).log(),
+        ])
+        .unwrap();
+        let mut ev = Evaluator::new(prob, set.clone());
+        let u = set.to_internal(&set.start_full());
+        let r0 = ev.residuals(&u).unwrap();
+        for (scheme, tol) in [(Difference::Forward, 1e-6), (Difference::Central, 1e-9)] {
+            let j = jacobian(&mut ev, &u, &r0, scheme).unwrap();
+            for (i, &xi) in x.iter().enumerate() {
+                let e = (-0.7 * xi).exp();
+                assert!((j[(i, 0)] + e).abs() < tol, "{scheme:?} {i}");
+                assert!(
+                    (j[(i, 1)] - 2.0 * 0.7 * xi * e).abs() < tol,
+                    "{scheme:?} {i}"
+                );
+            }
+        }
+    }
+}

@@ -11,8 +11,9 @@
 //!    - upper bound only: `u = ln(gh − y)`;
 //!    - both bounds: `u = logit((y − gl)/(gh − gl))`, so `y = gl + (gh − gl)/(1 + e^(−u))`.
 //!
-//! A bound is therefore never reached exactly; a parameter pushed against it shows up as
-//! `|u|` growing large, which the identifiability checks report. For a log transform a lower
+//! A bound is therefore never crossed; a parameter pushed against it shows up as `|u|`
+//! growing large (in floating point `x` may then equal the bound, where `dx/du = 0` and the
+//! parameter has no standard error), which the identifiability checks report. For a log transform a lower
 //! bound ≤ 0 is no bound at all (ln x is already defined only for x > 0) and is ignored.
 //!
 //! The covariance found in `u` is carried to `x` with the chain rule

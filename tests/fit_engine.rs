@@ -627,3 +627,52 @@ fn nelder_mead_pre_search_reaches_the_same_optimum() {
         assert!((a - b).abs() < 1e-4 * se, "{k}: {a} vs {b} (se {se})");
     }
 }
+
+#[test]
+fn correlated_ill_conditioned_parameters_are_flagged() {
+    // y = a + b x with x in [10000, 10001]: the intercept is an extrapolation over 10⁴ ranges
+    // of x, so a and b are almost perfectly anti-correlated (r ≈ −1), the column-scaled
+    // JᵀJ has the condition number (1 + ρ)/(1 − ρ) ≈ 4 x̄²/s_x² ≈ 4e9 (ρ = x̄/√(x̄² + s_x²) the
+    // cosine between the scaled columns, s_x = 0.303; hand computation) and the
+    // standard error of a (true value 0.1) is far larger than a itself.
+    let x: Vec<f64> = (0..21).map(|i| 10_000.0 + 0.05 * i as f64).collect();
+    let mut rng = StdRng::seed_from_u64(31);
+    let noise = Normal::new(0.0, 0.01).unwrap();
+    let y: Vec<f64> = x
+        .iter()
+        .map(|x| 0.1 + 0.5 * x + noise.sample(&mut rng))
+        .collect();
+    let problem = FnProblem::new(21, move |p: &[f64], out: &mut [f64]| {
+        for i in 0..21 {
+            out[i] = y[i] - p[0] - p[1] * x[i];
+        }
+        Ok(())
+    });
+    let specs = vec![ParamSpec::new("a", "-", 0.0), ParamSpec::new("b", "-", 1.0)];
+    let res = fit(problem, specs, &FitOptions::default()).unwrap();
+    let r = res.covariance.correlation[0][1].unwrap();
+    assert!(r < -0.999, "{r}");
+    let kappa = res.covariance.condition_number;
+    assert!(kappa > 2e9 && kappa < 8e9, "{kappa:e}");
+    let kinds: Vec<&WarningKind> = res.warnings.iter().map(|w| &w.kind).collect();
+    assert!(
+        kinds
+            .iter()
+            .any(|k| matches!(k, WarningKind::HighCorrelation { .. })),
+        "{kinds:?}"
+    );
+    assert!(
+        kinds
+            .iter()
+            .any(|k| matches!(k, WarningKind::IllConditioned { .. })),
+        "{kinds:?}"
+    );
+    assert!(
+        kinds
+            .iter()
+            .any(|k| matches!(k, WarningKind::LargeStdError { parameter, .. } if parameter == "a")),
+        "{kinds:?}"
+    );
+    // the slope is still well determined
+    assert!((res.estimates[1] - 0.5).abs() < 5.0 * res.parameters[1].std_error.unwrap());
+}

@@ -5,7 +5,11 @@
 //!
 //! Search: from each start LM runs with forward differences; if it does not converge,
 //! Nelder–Mead runs from the same start and LM again from its best point. The lowest sum of
-//! squares over all starts wins, and is polished by LM with central differences. Random
+//! squares over all starts wins, and is polished by LM with central differences and then by
+//! at most five tiny undamped Gauss–Newton steps (see `refine` below: in ill-conditioned
+//! directions the sum of squares is flat to rounding, so only the step itself can still move
+//! the estimate to the stationary point; this took MGH17 from 8e-7 to 1.5e-9 relative error
+//! against the certified values). Random
 //! extra starts draw each internal coordinate uniformly in `u₀ ± spread` (seeded).
 //!
 //! Statistics: the Jacobian at the optimum by central differences; `s² = RSS/(n − p)`;

@@ -676,3 +676,22 @@ fn correlated_ill_conditioned_parameters_are_flagged() {
     // the slope is still well determined
     assert!((res.estimates[1] - 0.5).abs() < 5.0 * res.parameters[1].std_error.unwrap());
 }
+
+#[test]
+fn transformed_interval_of_a_log_parameter_is_positive_and_multiplicative() {
+    let (t, y) = uptake_data(20, 2.0, 5.0, 0.05, 14);
+    let res = fit(uptake_problem(t, y), uptake_specs(), &FitOptions::default()).unwrap();
+    let p = &res.parameters[1];
+    let iv = p.transformed_interval.unwrap();
+    // for u = ln τ: [τ̂ e^(−t SE_u), τ̂ e^(t SE_u)], so the geometric mean of the ends is τ̂
+    assert!(iv.lower > 0.0);
+    assert!(((iv.lower * iv.upper).sqrt() - p.estimate).abs() < 1e-12 * p.estimate);
+    // first order, SE_u = SE/τ̂: the width in ln τ is 2 t SE/τ̂
+    let w = (iv.upper / iv.lower).ln();
+    let expect = 2.0 * res.t_critical * p.std_error.unwrap() / p.estimate;
+    assert!((w - expect).abs() < 1e-9 * expect);
+    // for the identity parameter both intervals agree
+    let a = &res.parameters[0];
+    let (i1, i2) = (a.interval.unwrap(), a.transformed_interval.unwrap());
+    assert!((i1.lower - i2.lower).abs() < 1e-12 && (i1.upper - i2.upper).abs() < 1e-12);
+}

@@ -14,8 +14,9 @@
 //!
 //! Statistics: the Jacobian at the optimum by central differences; `s² = RSS/(n − p)`;
 //! covariance, Student-t intervals `x̂ ± t(1 − α/2; n − p) SE` in SI (symmetric, from the
-//! chain-rule SE; the profile intervals are the ones to use when a transform makes the
-//! problem strongly nonlinear).
+//! chain-rule SE), the same interval formed in the internal coordinate and mapped back
+//! (asymmetric, positive for a log parameter), and on request profile-likelihood intervals,
+//! the ones to prefer when the model is strongly nonlinear in a parameter.
 //!
 //! References: see [`crate::fit::lm`], [`crate::stats::covariance`], [`crate::fit::profile`],
 //! [`crate::fit::bootstrap`].
@@ -118,8 +119,13 @@ pub struct ParameterResult {
     pub estimate: f64,
     /// Standard error (SI); `None` for fixed or non-identifiable parameters.
     pub std_error: Option<f64>,
-    /// Student-t interval at the fit's level (SI).
+    /// Student-t interval at the fit's level (SI), symmetric: `x̂ ± t SE`.
     pub interval: Option<Interval>,
+    /// The Student-t interval formed in the internal coordinate, `u ± t SE_u`, mapped back
+    /// to SI: asymmetric, and inside the domain of the transform (for a log parameter
+    /// `[x̂ e^(−t SE_u), x̂ e^(t SE_u)]`, always positive). Equal to `interval` for an
+    /// unbounded identity parameter.
+    pub transformed_interval: Option<Interval>,
     /// Profile-likelihood interval, when computed.
     pub profile: Option<ProfileInterval>,
     /// Bootstrap percentile interval, when computed.
@@ -206,7 +212,14 @@ pub(crate) fn search_from<P: ResidualProblem>(
     opts: &FitOptions,
 ) -> (LmOutcome, bool) {
     let nm_then_lm = |ev: &mut Evaluator<P>| -> Option<LmOutcome> {
-        let nm = nelder_mead(ev, u0, opts.nelder_mead_iterations, 1e-14).ok()?;
+        // stop when the simplex values agree to 1e-12 of the start's sum of squares
+        let f0 = ev.sum_of_squares(u0);
+        let tol = if f0.is_finite() && f0 > 0.0 {
+            1e-12 * f0
+        } else {
+            1e-14
+        };
+        let nm = nelder_mead(ev, u0, opts.nelder_mead_iterations, tol).ok()?;
         nm.rss
             .is_finite()
             .then(|| levenberg_marquardt(ev, &nm.u, &opts.lm))
@@ -465,6 +478,15 @@ pub fn fit<P: ResidualProblem>(
                     lower: full[i] - tcrit * se,
                     upper: full[i] + tcrit * se,
                 }),
+                transformed_interval: cov.std_errors_internal[k].and_then(|se_u| {
+                    let m = set.maps()[k];
+                    let a = m.to_external(u[k] - tcrit * se_u);
+                    let b = m.to_external(u[k] + tcrit * se_u);
+                    (a.is_finite() && b.is_finite()).then(|| Interval {
+                        lower: a.min(b),
+                        upper: a.max(b),
+                    })
+                }),
                 profile: profiles.as_ref().and_then(|v| v.get(k).cloned()),
                 bootstrap: boot
                     .as_ref()
@@ -479,6 +501,7 @@ pub fn fit<P: ResidualProblem>(
                 estimate: full[i],
                 std_error: None,
                 interval: None,
+                transformed_interval: None,
                 profile: None,
                 bootstrap: None,
             });

@@ -10,9 +10,11 @@
 pub mod analytic;
 pub mod data;
 pub mod error;
+pub mod fit;
 pub mod model;
 pub mod shortcuts;
 pub mod solver;
+pub mod stats;
 pub mod units;
 
 pub use error::{Error, InputKind, Location, Result};

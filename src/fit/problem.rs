@@ -1,0 +1,251 @@
+//! The interface between the fitting engine and a model: weighted residuals of a full
+//! parameter vector.
+//!
+//! The engine never sees the model itself, only `r(θ)`, the weighted residuals
+//! `r_i = (y_i − f_i(θ)) / w_i` with `w_i` a measurement standard uncertainty σ_i (absolute
+//! weighting) or a dataset scale (relative weighting). The weights must not depend on θ;
+//! the residual bootstrap relies on that (see [`crate::fit::bootstrap`]).
+//!
+//! [`Evaluator`] wraps a problem for the engine: it maps the internal coordinates of the free
+//! parameters to the full SI vector, counts evaluations and turns a failed or non-finite
+//! evaluation into `None`, which every optimiser treats as "reject this point".
+
+use crate::error::{Error, Result};
+use crate::fit::params::ParamSet;
+
+/// A least-squares problem: residuals `r(θ)` for a full parameter vector θ in SI (free and
+/// fixed, in the order of the parameter specs).
+///
+/// `Clone + Send` so that profile likelihood and bootstrap can run one copy per thread.
+pub trait ResidualProblem: Clone + Send {
+    /// Number of residuals `n` (constant for the life of the problem).
+    fn n_residuals(&self) -> usize;
+
+    /// Weighted residuals (already divided by σ or the dataset scale), written to `out`
+    /// (length [`ResidualProblem::n_residuals`]). `&mut self` so the implementation can keep
+    /// preallocated work space. An `Err` (e.g. the forward solver failed for these
+    /// parameters) makes the optimiser reject the point; it does not end the fit.
+    fn residuals(&mut self, params: &[f64], out: &mut [f64]) -> Result<()>;
+
+    /// The datasets as named index ranges into the residual vector, for the per-dataset
+    /// residual checks and bootstrap resampling. Default: one dataset, `all`.
+    fn datasets(&self) -> Vec<DatasetRange> {
+        vec![DatasetRange {
+            name: "all".to_string(),
+            range: 0..self.n_residuals(),
+        }]
+    }
+
+    /// The observations `y_i` and the σ_i (or scales) the residuals are divided by, in the
+    /// residuals' order, when the model knows them (used only for the weighted R²).
+    /// Default: not known.
+    fn observations(&self) -> Option<(Vec<f64>, Vec<f64>)> {
+        None
+    }
+}
+
+/// A named slice of the residual vector belonging to one dataset.
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
+pub struct DatasetRange {
+    /// Dataset name, as the user knows it.
+    pub name: String,
+    /// Indices of its residuals.
+    pub range: std::ops::Range<usize>,
+}
+
+/// A [`ResidualProblem`] built from a closure `f(θ, out)`; convenient for simple models and
+/// tests.
+#[derive(Clone)]
+pub struct FnProblem<F> {
+    n: usize,
+    f: F,
+    datasets: Option<Vec<DatasetRange>>,
+    observations: Option<(Vec<f64>, Vec<f64>)>,
+}
+
+impl<F> FnProblem<F>
+where
+    F: Fn(&[f64], &mut [f64]) -> Result<()> + Clone + Send,
+{
+    /// A problem with `n` residuals computed by `f`.
+    pub fn new(n: usize, f: F) -> Self {
+        FnProblem {
+            n,
+            f,
+            datasets: None,
+            observations: None,
+        }
+    }
+
+    /// The same problem split into named datasets.
+    pub fn with_datasets(mut self, datasets: Vec<DatasetRange>) -> Self {
+        self.datasets = Some(datasets);
+        self
+    }
+
+    /// The same problem with known observations `y` and their σ (for the weighted R²).
+    pub fn with_observations(mut self, y: Vec<f64>, sigma: Vec<f64>) -> Self {
+        self.observations = Some((y, sigma));
+        self
+    }
+}
+
+impl<F> ResidualProblem for FnProblem<F>
+where
+    F: Fn(&[f64], &mut [f64]) -> Result<()> + Clone + Send,
+{
+    fn n_residuals(&self) -> usize {
+        self.n
+    }
+
+    fn residuals(&mut self, params: &[f64], out: &mut [f64]) -> Result<()> {
+        (self.f)(params, out)
+    }
+
+    fn datasets(&self) -> Vec<DatasetRange> {
+        match &self.datasets {
+            Some(d) => d.clone(),
+            None => vec![DatasetRange {
+                name: "all".to_string(),
+                range: 0..self.n,
+            }],
+        }
+    }
+
+    fn observations(&self) -> Option<(Vec<f64>, Vec<f64>)> {
+        self.observations.clone()
+    }
+}
+
+/// A problem whose residuals are shifted by a constant vector: `r*(θ) = r(θ) + shift`.
+/// The residual bootstrap uses it with `shift = e* − r̂`.
+#[derive(Clone)]
+pub struct ShiftedProblem<P> {
+    inner: P,
+    shift: Vec<f64>,
+}
+
+impl<P: ResidualProblem> ShiftedProblem<P> {
+    /// Wrap `inner`; `shift` must have `inner.n_residuals()` entries.
+    pub fn new(inner: P, shift: Vec<f64>) -> Result<Self> {
+        if shift.len() != inner.n_residuals() {
+            return Err(Error::Internal(format!(
+                "shift has {} entries for {} residuals",
+                shift.len(),
+                inner.n_residuals()
+            )));
+        }
+        Ok(ShiftedProblem { inner, shift })
+    }
+}
+
+impl<P: ResidualProblem> ResidualProblem for ShiftedProblem<P> {
+    fn n_residuals(&self) -> usize {
+        self.inner.n_residuals()
+    }
+
+    fn datasets(&self) -> Vec<DatasetRange> {
+        self.inner.datasets()
+    }
+
+    fn residuals(&mut self, params: &[f64], out: &mut [f64]) -> Result<()> {
+        self.inner.residuals(params, out)?;
+        for (o, s) in out.iter_mut().zip(&self.shift) {
+            *o += s;
+        }
+        Ok(())
+    }
+}
+
+/// The engine's view of a problem: internal coordinates of the free parameters → residuals.
+#[derive(Clone)]
+pub struct Evaluator<P> {
+    problem: P,
+    params: ParamSet,
+    full: Vec<f64>,
+    n: usize,
+    evaluations: usize,
+    failures: usize,
+}
+
+impl<P: ResidualProblem> Evaluator<P> {
+    /// Wrap `problem` with the parameter set `params`.
+    pub fn new(problem: P, params: ParamSet) -> Self {
+        let full = params.start_full();
+        let n = problem.n_residuals();
+        Evaluator {
+            problem,
+            params,
+            full,
+            n,
+            evaluations: 0,
+            failures: 0,
+        }
+    }
+
+    /// Number of residuals.
+    pub fn n_residuals(&self) -> usize {
+        self.n
+    }
+
+    /// Number of free parameters.
+    pub fn n_free(&self) -> usize {
+        self.params.n_free()
+    }
+
+    /// The parameter set.
+    pub fn params(&self) -> &ParamSet {
+        &self.params
+    }
+
+    /// The wrapped problem.
+    pub fn problem(&self) -> &P {
+        &self.problem
+    }
+
+    /// Residual evaluations so far.
+    pub fn evaluations(&self) -> usize {
+        self.evaluations
+    }
+
+    /// Evaluations that failed or gave non-finite values.
+    pub fn failures(&self) -> usize {
+        self.failures
+    }
+
+    /// Full SI vector for internal coordinates `u`.
+    pub fn external(&self, u: &[f64]) -> Vec<f64> {
+        let mut full = self.full.clone();
+        self.params.fill_external(u, &mut full);
+        full
+    }
+
+    /// Residuals at internal coordinates `u` into `out`; `false` when the evaluation failed,
+    /// a parameter maps to a non-finite value, or any residual is not finite.
+    pub fn eval(&mut self, u: &[f64], out: &mut [f64]) -> bool {
+        self.evaluations += 1;
+        self.params.fill_external(u, &mut self.full);
+        let ok = self.full.iter().all(|v| v.is_finite())
+            && out.len() == self.n
+            && self.problem.residuals(&self.full, out).is_ok()
+            && out.iter().all(|v| v.is_finite());
+        if !ok {
+            self.failures += 1;
+        }
+        ok
+    }
+
+    /// Residual vector at `u`, or `None` (see [`Evaluator::eval`]).
+    pub fn residuals(&mut self, u: &[f64]) -> Option<Vec<f64>> {
+        let mut out = vec![0.0; self.n];
+        self.eval(u, &mut out).then_some(out)
+    }
+
+    /// Sum of squares at `u`, `+∞` when the evaluation fails.
+    pub fn sum_of_squares(&mut self, u: &[f64]) -> f64 {
+        match self.residuals(u) {
+            Some(r) => r.iter().map(|v| v * v).sum(),
+            None => f64::INFINITY,
+        }
+    }
+}

@@ -1,0 +1,185 @@
+//! Parameter covariance from the Jacobian at the optimum, with a rank check.
+//!
+//! `C_u = s² (JᵀJ)⁻¹` in the internal coordinates, where `s² = RSS/(n − p)` (residual
+//! variance; unknown σ or relative weights) or `s² = 1` (residuals divided by absolute σ
+//! and no rescaling requested). `(JᵀJ)⁻¹` is formed from the SVD of the column-scaled
+//! Jacobian `J_s = J C⁻¹`, `C = diag(‖J_j‖)`: `(JᵀJ)⁻¹ = C⁻¹ V S⁻² Vᵀ C⁻¹`, never by
+//! inverting `JᵀJ` itself. Column scaling makes the rank test independent of the parameters'
+//! units: singular values `s_i < rank_tol · s_max` are treated as zero. A parameter with a
+//! component `|V_jk| > 0.1` along such a null direction `k` is not identifiable: its variance
+//! and correlations are reported as absent (`None`), not as numbers. The others are estimable
+//! and get the pseudo-inverse values.
+//!
+//! User-space covariance by the chain rule: `C_x = G C_u G`, `G = diag(dx/du)`.
+//! Reported condition number: `κ(J_sᵀ J_s) = (s_max/s_min)²` of the column-scaled matrix.
+//!
+//! References: G. H. Golub & C. F. Van Loan, *Matrix Computations*, 4th ed. (2013), §5.5;
+//! D. M. Bates & D. G. Watts, *Nonlinear Regression Analysis and Its Applications* (1988), §2.3.
+
+use nalgebra::DMatrix;
+use serde::Serialize;
+
+/// Covariance of the free parameters.
+#[derive(Debug, Clone, Serialize)]
+pub struct Covariance {
+    /// Numerical rank of the Jacobian.
+    pub rank: usize,
+    /// Singular values of the column-scaled Jacobian, largest first.
+    pub singular_values: Vec<f64>,
+    /// Condition number of the column-scaled `JᵀJ` (∞ when singular).
+    pub condition_number: f64,
+    /// Scale factor used (`s²`, or 1 for absolute σ without rescaling).
+    pub scale: f64,
+    /// Indices (among the free parameters) that are not identifiable.
+    pub non_identifiable: Vec<usize>,
+    /// Covariance in internal coordinates (`None` where not identifiable).
+    pub internal: Vec<Vec<Option<f64>>>,
+    /// Covariance in user space, SI (`None` where not identifiable).
+    pub external: Vec<Vec<Option<f64>>>,
+    /// Standard errors in user space, SI.
+    pub std_errors: Vec<Option<f64>>,
+    /// Standard errors in internal coordinates.
+    pub std_errors_internal: Vec<Option<f64>>,
+    /// Correlation matrix.
+    pub correlation: Vec<Vec<Option<f64>>>,
+}
+
+/// Covariance from the Jacobian `jac` (n × p, internal coordinates), the scale `s²`, the
+/// chain-rule factors `dx/du` and the relative rank tolerance.
+pub fn covariance(jac: &DMatrix<f64>, scale: f64, dx_du: &[f64], rank_tol: f64) -> Covariance {
+    let p = jac.ncols();
+    let mut colnorm = vec![1.0; p];
+    let mut js = jac.clone();
+    for (j, c) in colnorm.iter_mut().enumerate() {
+        let nj = jac.column(j).norm();
+        if nj > 0.0 && nj.is_finite() {
+            *c = nj;
+        }
+        js.column_mut(j).scale_mut(1.0 / *c);
+    }
+    let svd = js.svd(false, true);
+    let s: Vec<f64> = svd.singular_values.iter().copied().collect();
+    let smax = s.iter().copied().fold(0.0_f64, f64::max);
+    let mut order: Vec<usize> = (0..s.len()).collect();
+    order.sort_by(|&a, &b| s[b].total_cmp(&s[a]));
+    let sorted: Vec<f64> = order.iter().map(|&i| s[i]).collect();
+    let keep: Vec<bool> = s.iter().map(|&v| v > rank_tol * smax && v > 0.0).collect();
+    let rank = keep.iter().filter(|k| **k).count();
+    let smin = sorted.last().copied().unwrap_or(0.0);
+    let condition_number = if smin > 0.0 && rank == p {
+        (smax / smin).powi(2)
+    } else {
+        f64::INFINITY
+    };
+    let mut internal = vec![vec![None; p]; p];
+    let mut non_identifiable = Vec::new();
+    if let Some(vt) = svd.v_t.as_ref() {
+        // rows of vt are right singular vectors
+        let mut bad = vec![false; p];
+        for (k, kept) in keep.iter().enumerate() {
+            if !kept {
+                for (j, b) in bad.iter_mut().enumerate() {
+                    if vt[(k, j)].abs() > 0.1 {
+                        *b = true;
+                    }
+                }
+            }
+        }
+        // a short Jacobian (n < p) also has null directions not represented in vt
+        if s.len() < p {
+            bad.iter_mut().for_each(|b| *b = true);
+        }
+        for (j, b) in bad.iter().enumerate() {
+            if *b {
+                non_identifiable.push(j);
+            }
+        }
+        for a in 0..p {
+            for b in 0..p {
+                if bad[a] || bad[b] {
+                    continue;
+                }
+                let mut sum = 0.0;
+                for (k, kept) in keep.iter().enumerate() {
+                    if *kept {
+                        sum += vt[(k, a)] * vt[(k, b)] / (s[k] * s[k]);
+                    }
+                }
+                internal[a][b] = Some(scale * sum / (colnorm[a] * colnorm[b]));
+            }
+        }
+    } else {
+        non_identifiable = (0..p).collect();
+    }
+    let mut external = vec![vec![None; p]; p];
+    for a in 0..p {
+        for b in 0..p {
+            external[a][b] = internal[a][b].map(|c| c * dx_du[a] * dx_du[b]);
+        }
+    }
+    let std_errors: Vec<Option<f64>> = (0..p)
+        .map(|j| external[j][j].map(|v| v.max(0.0).sqrt()))
+        .collect();
+    let std_errors_internal: Vec<Option<f64>> = (0..p)
+        .map(|j| internal[j][j].map(|v| v.max(0.0).sqrt()))
+        .collect();
+    let mut correlation = vec![vec![None; p]; p];
+    for a in 0..p {
+        for b in 0..p {
+            if let (Some(c), Some(va), Some(vb)) = (internal[a][b], internal[a][a], internal[b][b])
+            {
+                if va > 0.0 && vb > 0.0 {
+                    // the chain-rule factors cancel in a correlation, up to their signs
+                    let sign = (dx_du[a] * dx_du[b]).signum();
+                    correlation[a][b] = Some(sign * c / (va * vb).sqrt());
+                }
+            }
+        }
+    }
+    Covariance {
+        rank,
+        singular_values: sorted,
+        condition_number,
+        scale,
+        non_identifiable,
+        internal,
+        external,
+        std_errors,
+        std_errors_internal,
+        correlation,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    #[allow(clippy::needless_range_loop)]
+    fn linear_regression_covariance() {
+        // straight line y = a + b x at x = 0,1,2,3: (JᵀJ)⁻¹ = [[7/10, -3/10],[-3/10, 1/5]]
+        // (hand computation: JᵀJ = [[4, 6],[6, 14]], det 20)
+        let jac = DMatrix::from_row_slice(4, 2, &[1.0, 0.0, 1.0, 1.0, 1.0, 2.0, 1.0, 3.0]);
+        let c = covariance(&jac, 2.0, &[1.0, 1.0], 1e-10);
+        assert_eq!(c.rank, 2);
+        let e = [[0.7, -0.3], [-0.3, 0.2]];
+        for a in 0..2 {
+            for b in 0..2 {
+                let v = c.external[a][b].unwrap();
+                assert!((v - 2.0 * e[a][b]).abs() < 1e-12, "{a}{b}: {v}");
+            }
+        }
+        let r = c.correlation[0][1].unwrap();
+        assert!((r + 0.3 / (0.7f64 * 0.2).sqrt()).abs() < 1e-12);
+    }
+
+    #[test]
+    fn proportional_columns_are_flagged() {
+        let jac = DMatrix::from_row_slice(3, 3, &[1.0, 2.0, 0.0, 2.0, 4.0, 1.0, 3.0, 6.0, 0.0]);
+        let c = covariance(&jac, 1.0, &[1.0, 1.0, 1.0], 1e-10);
+        assert_eq!(c.rank, 2);
+        assert_eq!(c.non_identifiable, vec![0, 1]);
+        assert!(c.std_errors[0].is_none() && c.std_errors[1].is_none());
+        assert!(c.std_errors[2].is_some());
+    }
+}

@@ -5,8 +5,10 @@
 //! report. SI units everywhere inside; units are converted at the edges.
 #![deny(missing_docs)]
 
+pub mod data;
 pub mod error;
 pub mod model;
 pub mod solver;
+pub mod units;
 
 pub use error::{Error, InputKind, Location, Result};

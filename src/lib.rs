@@ -7,6 +7,7 @@
 
 pub mod data;
 pub mod error;
+pub mod experiment;
 pub mod model;
 pub mod solver;
 pub mod units;

@@ -539,3 +539,26 @@ proptest! {
         let _ = experiment::from_str(&text, Path::new("any.toml"), &dir());
     }
 }
+
+#[test]
+fn documented_examples_are_the_fixtures() {
+    let doc = std::fs::read_to_string(
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("docs/experiment-file.md"),
+    )
+    .unwrap();
+    for f in ["film_uptake.toml", "heated_rod.toml", "depth_profiles.toml"] {
+        let text = std::fs::read_to_string(dir().join(f)).unwrap();
+        assert!(
+            doc.contains(&format!("```toml\n{text}```")),
+            "docs/experiment-file.md should show {f} verbatim"
+        );
+    }
+}
+
+#[test]
+fn sensor_outside_the_sample_is_refused() {
+    let text = std::fs::read_to_string(dir().join("heated_rod.toml")).unwrap();
+    let bad = text.replace("position = \"140 mm\"", "position = \"240 mm\"");
+    let e = experiment::from_str(&bad, Path::new("rod.toml"), &dir()).unwrap_err();
+    assert_eq!(e.input_kind(), Some(InputKind::PositionOutside), "{e}");
+}

@@ -669,7 +669,7 @@ impl<'a> Builder<'a> {
                     && lower.is_none_or(|lo| lo > 0.0)
             }
         };
-        let full = match ds.and_then(|_| self.dataset) {
+        let full = match ds.and(self.dataset) {
             Some((_, d)) => format!("{name}[{}]", d.name),
             None => name.to_string(),
         };
@@ -718,7 +718,7 @@ impl<'a> Builder<'a> {
             SignalSpec::Scalar(sc) => {
                 return self.num(sc, kind, Check::Any, key).map(SignalT::Const)
             }
-            SignalSpec::Table(t) => t,
+            SignalSpec::Table(t) => &**t,
         };
         let has_rows = t.rows.is_some();
         let has_periodic =
@@ -1141,6 +1141,22 @@ impl<'a> Builder<'a> {
     }
 }
 
+/// The sample's extent (left, right coordinate, m) when it does not depend on parameters.
+fn const_extent(t: &ModelT) -> Option<(f64, f64)> {
+    let Num::Const(inner) = t.inner_radius else {
+        return None;
+    };
+    let mut total = 0.0;
+    for l in &t.layers {
+        total += match l.thickness {
+            ThicknessT::Direct(Num::Const(v)) => v,
+            ThicknessT::Between(Num::Const(o), Num::Const(i)) => o - i,
+            _ => return None,
+        };
+    }
+    Some((inner, inner + total))
+}
+
 fn example(kind: Kind) -> &'static str {
     match kind {
         Kind::Length => "120 um",
@@ -1440,9 +1456,11 @@ fn dataset(
         Some(s) => Some(b.literal(s, Kind::Time, Check::Any, &k("time_origin"))?.0),
         None => None,
     };
+    let extent = const_extent(&template);
     let opts = ReadOptions {
         time_origin: origin,
         min_points: 1,
+        sample_extent: extent,
         ..Default::default()
     };
     let need = |b: &Builder<'_>, v: &Option<String>, name: &str| -> Result<String> {
@@ -1525,6 +1543,17 @@ fn dataset(
                     let x = b
                         .literal(p, Kind::Length, Check::NonNegative, &k("position"))?
                         .0;
+                    if let Some((lo, hi)) = extent {
+                        if x < lo - 1e-12 * hi || x > hi * (1.0 + 1e-12) {
+                            return Err(b.err(
+                                InputKind::PositionOutside,
+                                &k("position"),
+                                format!(
+                                    "position {x:e} m is outside the sample ({lo:e} m to {hi:e} m)"
+                                ),
+                            ));
+                        }
+                    }
                     positions = vec![Some(x); s.time.len()];
                     Observable::ValueAt(x)
                 }

@@ -54,7 +54,7 @@ pub enum SignalSpec {
     /// Constant or parameter.
     Scalar(Scalar),
     /// One of the table forms.
-    Table(SignalTable),
+    Table(Box<SignalTable>),
 }
 
 /// The table forms of a signal; exactly one group of keys is used.
@@ -108,7 +108,8 @@ impl<'de> Visitor<'de> for SignalVisitor {
         Ok(SignalSpec::Scalar(Scalar::Text(v.to_string())))
     }
     fn visit_map<A: MapAccess<'de>>(self, map: A) -> Result<SignalSpec, A::Error> {
-        SignalTable::deserialize(de::value::MapAccessDeserializer::new(map)).map(SignalSpec::Table)
+        SignalTable::deserialize(de::value::MapAccessDeserializer::new(map))
+            .map(|t| SignalSpec::Table(Box::new(t)))
     }
 }
 

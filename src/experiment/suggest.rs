@@ -19,8 +19,8 @@ pub fn edit_distance(a: &str, b: &str) -> usize {
     for i in 0..=n {
         d[i * w] = i;
     }
-    for j in 0..=m {
-        d[j] = j;
+    for (j, v) in d.iter_mut().enumerate().take(m + 1) {
+        *v = j;
     }
     for i in 1..=n {
         for j in 1..=m {

@@ -680,3 +680,54 @@ fn line_numbers_count_comments_and_blank_lines_inside_the_data() {
     let msg = check(&e, InputKind::NotANumber, Some(8), Some("mass [mg]"));
     assert!(msg.contains("'oops'"), "{msg}");
 }
+
+// ------------------------------------------------------------------- more cases, in memory
+
+fn from_bytes(bytes: &[u8]) -> Result<Loaded<Vec<TimeSeries>>, Error> {
+    data::read_time_series_from(bytes, "mem.csv", &mass_series(), &ReadOptions::default())
+}
+
+#[test]
+fn time_column_without_unit_is_refused() {
+    let e = from_bytes(b"time,mass [mg]\n0,1\n").unwrap_err();
+    let msg = check(&e, InputKind::UnknownUnit, Some(1), Some("time"));
+    assert!(msg.contains("s, min, h, d"), "{msg}");
+}
+
+#[test]
+fn utf16_file_is_an_encoding_error() {
+    let e = from_bytes(b"\xff\xfet\x00i\x00").unwrap_err();
+    check(&e, InputKind::Encoding, Some(1), None);
+}
+
+#[test]
+fn two_columns_with_the_same_name_are_ambiguous() {
+    let e = from_bytes(b"time [s],mass [mg],Mass [g]\n0,1,2\n").unwrap_err();
+    let msg = check(&e, InputKind::UnknownColumn, Some(1), Some("mass [mg]"));
+    assert!(msg.contains("'Mass [g]'"), "{msg}");
+}
+
+#[test]
+fn quoted_cells_with_delimiters_and_newlines_keep_line_numbers() {
+    // The quoted label spans lines 2-3; the bad cell is on line 5.
+    let text = b"time [s],note,mass [mg]\n0,\"a, b\nc\",1\n10,x,2\n20,y,zz\n";
+    let cols = SeriesColumns::new("time", "mass");
+    let e = data::read_time_series_from(&text[..], "q.csv", &cols, &ReadOptions::default())
+        .unwrap_err();
+    check(&e, InputKind::NotANumber, Some(5), Some("mass [mg]"));
+}
+
+#[test]
+fn repeated_profile_row_is_a_duplicate() {
+    let text = b"x [mm],c\n0,1\n0.5,0.4\n0.5,0.4\n";
+    let cols = ProfileColumns {
+        position: ColumnSpec::new("x"),
+        value: ColumnSpec::new("c"),
+        sigma: None,
+        time: ProfileTime::Fixed(60.0),
+    };
+    let e =
+        data::read_profiles_from(&text[..], "p.csv", &cols, &ReadOptions::default()).unwrap_err();
+    let msg = check(&e, InputKind::DuplicateRow, Some(4), Some("x [mm]"));
+    assert!(msg.contains("line 4 repeats line 3"), "{msg}");
+}

@@ -125,7 +125,7 @@ pub fn outlier_indices(y: &[f64]) -> Vec<usize> {
         let mean_ad = tmp.iter().sum::<f64>() / tmp.len() as f64;
         sigma = 1.2533 * mean_ad;
     }
-    if !(sigma > 0.0) {
+    if sigma.is_nan() || sigma <= 0.0 {
         return Vec::new();
     }
     resid

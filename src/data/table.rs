@@ -469,17 +469,22 @@ impl<R: Read> LineFilter<R> {
 }
 
 impl<R: Read> Read for LineFilter<R> {
+    /// Fills `out` with as many kept lines as fit (0 only at the end of the input).
     fn read(&mut self, out: &mut [u8]) -> std::io::Result<usize> {
-        if self.pos >= self.buf.len() && !self.next_line()? {
-            return Ok(0);
+        let mut filled = 0;
+        while filled < out.len() {
+            if self.pos >= self.buf.len() && !self.next_line()? {
+                break;
+            }
+            let rest = self.current();
+            let n = rest.len().min(out.len() - filled);
+            if let (Some(dst), Some(src)) = (out.get_mut(filled..filled + n), rest.get(..n)) {
+                dst.copy_from_slice(src);
+            }
+            self.pos += n;
+            filled += n;
         }
-        let rest = self.current();
-        let n = rest.len().min(out.len());
-        if let (Some(dst), Some(src)) = (out.get_mut(..n), rest.get(..n)) {
-            dst.copy_from_slice(src);
-        }
-        self.pos += n;
-        Ok(n)
+        Ok(filled)
     }
 }
 

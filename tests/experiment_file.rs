@@ -562,3 +562,33 @@ fn sensor_outside_the_sample_is_refused() {
     let e = experiment::from_str(&bad, Path::new("rod.toml"), &dir()).unwrap_err();
     assert_eq!(e.input_kind(), Some(InputKind::PositionOutside), "{e}");
 }
+
+#[test]
+fn every_example_solves_at_its_start_values() {
+    for f in ["film_uptake.toml", "heated_rod.toml", "depth_profiles.toml"] {
+        let e = load(f);
+        let p = e.start_values();
+        let mut solver = Solver::new(e.solver.clone()).unwrap();
+        for d in &e.datasets {
+            let model = d.model_for(&p).unwrap();
+            let sol = solver
+                .solve(&model, &d.request)
+                .unwrap_or_else(|err| panic!("{f} {}: {err}", d.name));
+            let pred = d.predict(&p, sol).unwrap();
+            assert_eq!(pred.len(), d.len());
+            assert!(pred.iter().all(|v| v.is_finite()), "{f} {}", d.name);
+        }
+    }
+    // The rod at t = 0 reads the initial 22 °C at every sensor (model of the file).
+    let e = load("heated_rod.toml");
+    let d = &e.datasets[0];
+    let p = e.start_values();
+    let mut solver = Solver::new(e.solver.clone()).unwrap();
+    let sol = solver.solve(&d.model_for(&p).unwrap(), &d.request).unwrap();
+    let pred = d.predict(&p, sol).unwrap();
+    for (i, &(_, k)) in d.map.iter().enumerate() {
+        if k == 0 {
+            assert!((pred[i] - (22.0 + ZERO_C)).abs() < 1e-9, "{}", pred[i]);
+        }
+    }
+}

@@ -490,6 +490,30 @@ fn inline_errors_name_their_keys() {
             InputKind::BadValue,
             "parameters.unused",
         ),
+        (
+            "[datasets.ends.right.transfer]\ncoefficient = \"h\"",
+            "[datasets.ends.right.transfer]\ncoeficient = \"h\"",
+            InputKind::UnknownKey,
+            "datasets[1].ends.right.transfer.coeficient",
+        ),
+        (
+            "[ends.left.transfer]\ncoefficient = \"h\"\npartition = 1.0\noutside = \"4.2 mg/cm3\"",
+            "[ends.left.transfer]\ncoefficient = \"h\"\npartition = 1.0\noutside = { rows = [[0, 1.0]], time_unt = \"s\" }",
+            InputKind::UnknownKey,
+            "ends.left.transfer.outside.time_unt",
+        ),
+        (
+            "diffusivity = \"D\"",
+            "diffusivity = { law = \"exponential\", d0 = \"D\", beta = 1.0 }",
+            InputKind::MissingKey,
+            "sample.diffusivity.u_ref",
+        ),
+        (
+            "outside = 0.0\n\n[datasets.ends.right",
+            "outside = \"0 K\"\n\n[datasets.ends.right",
+            InputKind::UnknownUnit,
+            "datasets[1].ends.left.transfer.outside",
+        ),
     ];
     for (from, to, kind, key) in cases {
         assert!(good.contains(from), "{from}");

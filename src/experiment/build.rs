@@ -1367,8 +1367,8 @@ fn fit_options(s: &FitSpec, index: &SpanIndex) -> Result<FitOptions> {
     Ok(o)
 }
 
-fn measured_unit(b: &Builder<'_>, d: &DatasetSpec, key: &str) -> Option<Unit> {
-    let _ = key;
+/// The unit to read a dataset's value column(s) in, when the header's is not to be used.
+fn measured_unit(b: &Builder<'_>, d: &DatasetSpec) -> Option<Unit> {
     match &d.value_unit {
         Some(u) => Some(Unit::parse(u).unwrap_or_else(|_| Unit::arbitrary(u.as_str()))),
         None if b.value_unit.quantity() == Quantity::Arbitrary
@@ -1486,7 +1486,7 @@ fn dataset(
         _ => need(b, &d.value_column, "value_column")?,
     };
     let mut value_spec = ColumnSpec::new(value_col.clone());
-    if let Some(u) = measured_unit(b, d, &k("value_unit")) {
+    if let Some(u) = measured_unit(b, d) {
         value_spec = value_spec.with_unit(u);
     }
     let end_needed = |b: &Builder<'_>| -> Result<End> {
@@ -1596,7 +1596,7 @@ fn dataset(
                     )?
                     .0;
                 let mut c = ColumnSpec::new(s.column.clone());
-                if let Some(u) = measured_unit(b, d, "") {
+                if let Some(u) = measured_unit(b, d) {
                     c = c.with_unit(u);
                 }
                 specs.push(SensorSpec {

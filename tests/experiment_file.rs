@@ -616,3 +616,106 @@ fn every_example_solves_at_its_start_values() {
         }
     }
 }
+
+/// A minimal experiment around a given [sample] and [ends] text, fitting the film sorption data.
+fn minimal(sample_and_ends: &str) -> String {
+    format!(
+        "{sample_and_ends}\n[initial]\nvalue = 0\n\n[parameters.D]\nstart = \"1e-12 m2/s\"\n\n\
+         [[datasets]]\nname = \"run\"\nfile = \"data/film/sorption.csv\"\nlayout = \"time_series\"\n\
+         observe = \"fractional_uptake\"\ntime_column = \"time\"\nvalue_column = \"mass\"\n"
+    )
+}
+
+#[test]
+fn radial_and_layered_samples() {
+    // Hollow cylinder: thickness = outer − inner radius.
+    let text = minimal(
+        "[sample]\nshape = \"cylinder\"\nvalue_unit = \"fraction\"\nradius = \"5 mm\"\n\
+         inner_radius = \"2 mm\"\ndiffusivity = \"D\"\n[ends.left]\nsealed = true\n[ends.right]\nvalue = 1\n",
+    );
+    let e = experiment::from_str(&text, Path::new("c.toml"), &dir()).unwrap();
+    let m = e.datasets[0].model_for(&e.start_values()).unwrap();
+    assert_eq!(m.geometry.shape, Shape::Cylinder);
+    assert!(close(m.geometry.inner_radius, 2e-3) && close(m.geometry.thickness(), 3e-3));
+
+    // Solid sphere: the centre needs no left end.
+    let text = minimal(
+        "[sample]\nshape = \"sphere\"\nvalue_unit = \"fraction\"\nradius = \"0.4 mm\"\n\
+         diffusivity = \"D\"\n[ends.right]\nvalue = 1\n",
+    );
+    let e = experiment::from_str(&text, Path::new("s.toml"), &dir()).unwrap();
+    let m = e.datasets[0].model_for(&e.start_values()).unwrap();
+    assert_eq!(m.left, EndCondition::Sealed);
+    assert!(close(m.geometry.outer(), 4e-4));
+
+    // ... and refuses a value at its centre.
+    let text = minimal(
+        "[sample]\nshape = \"sphere\"\nvalue_unit = \"fraction\"\nradius = \"0.4 mm\"\n\
+         diffusivity = \"D\"\n[ends.left]\nvalue = 1\n[ends.right]\nvalue = 1\n",
+    );
+    let err = experiment::from_str(&text, Path::new("s.toml"), &dir()).unwrap_err();
+    assert_eq!(err.input_kind(), Some(InputKind::BadValue), "{err}");
+    assert_eq!(err.location().unwrap().key.as_deref(), Some("ends.left"));
+    assert_eq!(err.location().unwrap().line, Some(6));
+
+    // Two layers with a partition ratio; a slab takes no radius.
+    let text = minimal(
+        "[sample]\nshape = \"slab\"\nvalue_unit = \"fraction\"\n\
+         [[sample.layers]]\nthickness = \"20 um\"\ndiffusivity = \"3e-14 m2/s\"\npartition_to_next = 0.5\n\
+         [[sample.layers]]\nthickness = \"0.1 mm\"\ndiffusivity = \"D\"\n\
+         [ends.left]\nvalue = 1\n[ends.right]\nsealed = true\n",
+    );
+    let e = experiment::from_str(&text, Path::new("l.toml"), &dir()).unwrap();
+    let m = e.datasets[0].model_for(&e.start_values()).unwrap();
+    assert_eq!(m.geometry.layers.len(), 2);
+    assert!(
+        close(m.geometry.layers[0].thickness, 2e-5) && close(m.geometry.layers[1].thickness, 1e-4)
+    );
+    assert_eq!(m.geometry.layers[0].partition_to_next, 0.5);
+    assert_eq!(
+        m.geometry.layers[0].diffusivity,
+        DiffusivityLaw::constant(3e-14)
+    );
+
+    let text = minimal(
+        "[sample]\nshape = \"slab\"\nvalue_unit = \"fraction\"\nthickness = \"1 mm\"\nradius = \"1 mm\"\n\
+         diffusivity = \"D\"\n[ends.left]\nvalue = 1\n[ends.right]\nvalue = 1\n",
+    );
+    let err = experiment::from_str(&text, Path::new("r.toml"), &dir()).unwrap_err();
+    assert_eq!(
+        err.location().unwrap().key.as_deref(),
+        Some("sample.radius"),
+        "{err}"
+    );
+}
+
+#[test]
+fn signals_from_tables_and_periods() {
+    let text = minimal(
+        "[sample]\nshape = \"slab\"\nvalue_unit = \"degC\"\nthickness = \"1 mm\"\ndiffusivity = \"D\"\n\
+         [ends.left]\nvalue = { rows = [[0, 20], [2, 40]], time_unit = \"min\" }\n\
+         [ends.right]\nflux = { mean = \"2 K mm/s\", amplitude = \"1 K mm/s\", period = \"1 h\", phase = \"90 deg\" }\n",
+    )
+    .replace("value = 0\n", "value = \"20 degC\"\n");
+    let e = experiment::from_str(&text, Path::new("p.toml"), &dir()).unwrap();
+    let m = e.datasets[0].model_for(&e.start_values()).unwrap();
+    assert_eq!(
+        m.left,
+        EndCondition::Value(Signal::Table(vec![
+            (0.0, 20.0 + ZERO_C),
+            (120.0, 40.0 + ZERO_C)
+        ]))
+    );
+    let EndCondition::Flux(Signal::Periodic {
+        mean,
+        amplitude,
+        period,
+        phase,
+    }) = m.right
+    else {
+        panic!("{:?}", m.right)
+    };
+    // A flux of temperature is a difference: no 273.15 K offset; 1 mm = 1e-3 m; 90° = π/2.
+    assert!(close(mean, 2e-3) && close(amplitude, 1e-3) && close(period, 3600.0));
+    assert!(close(phase, std::f64::consts::FRAC_PI_2));
+}

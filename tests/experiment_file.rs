@@ -719,3 +719,16 @@ fn signals_from_tables_and_periods() {
     assert!(close(mean, 2e-3) && close(amplitude, 1e-3) && close(period, 3600.0));
     assert!(close(phase, std::f64::consts::FRAC_PI_2));
 }
+
+#[test]
+fn misspelt_parameter_name_gets_a_suggestion() {
+    let good = std::fs::read_to_string(dir().join("film_uptake.toml")).unwrap();
+    let text = good.replacen("scale = \"M_inf\"", "scale = \"M_ifn\"", 1);
+    let e = experiment::from_str(&text, Path::new("x.toml"), &dir()).unwrap_err();
+    assert_eq!(e.input_kind(), Some(InputKind::UndefinedParameter), "{e}");
+    assert_eq!(
+        e.location().unwrap().key.as_deref(),
+        Some("datasets[0].scale")
+    );
+    assert!(e.to_string().contains("did you mean 'M_inf'"), "{e}");
+}

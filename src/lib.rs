@@ -10,6 +10,7 @@
 pub mod analytic;
 pub mod data;
 pub mod error;
+pub mod experiment;
 pub mod fit;
 pub mod model;
 pub mod shortcuts;

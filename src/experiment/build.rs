@@ -1,0 +1,1839 @@
+//! From the file as written ([`super::schema`]) to a resolved, SI-only experiment: the
+//! parameter table, and per dataset a model template, the solver request, the observations
+//! and the map from solver outputs to predictions.
+//!
+//! Every physical number becomes either a constant in SI or the index of a parameter, so
+//! [`Dataset::model_for`] fills a template from a parameter vector without parsing anything.
+
+use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
+
+use super::locate::SpanIndex;
+use super::quantity::{self, Kind};
+use super::schema::*;
+use super::suggest;
+use crate::data::{self, ColumnSpec, ProfileColumns, ProfileTime, ReadOptions, SensorColumns};
+use crate::data::{SensorSpec, SeriesColumns, Warning};
+use crate::error::{Error, InputKind, Location, Result};
+use crate::model::{
+    DiffusivityLaw, End, EndCondition, Geometry, Initial, Layer, Model, Shape, Signal, Sources,
+};
+use crate::solver::{GridOptions, Observable, Request, Solution, SolverOptions};
+use crate::units::{Quantity, Unit};
+
+/// One parameter of the fit, SI units.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Parameter {
+    /// Name as written; a per-dataset parameter is named `name[dataset]`.
+    pub name: String,
+    /// The parameter's name in the file (without the dataset suffix).
+    pub base_name: String,
+    /// The dataset it belongs to, for per-dataset parameters (index into
+    /// [`Experiment::datasets`]).
+    pub dataset: Option<usize>,
+    /// Unit label of the start value as written, for reports.
+    pub unit: String,
+    /// `x_SI = unit_scale · x + unit_offset` for the reporting unit.
+    pub unit_scale: f64,
+    /// Offset of the reporting unit, SI.
+    pub unit_offset: f64,
+    /// What it measures.
+    pub kind: Kind,
+    /// Start value, SI.
+    pub start: f64,
+    /// Lower bound, SI.
+    pub lower: Option<f64>,
+    /// Upper bound, SI.
+    pub upper: Option<f64>,
+    /// True when the fit adjusts it; false when held at `start`.
+    pub free: bool,
+    /// Fit log(p) instead of p (strictly positive quantities).
+    pub log: bool,
+    /// Key path of its definition, for messages.
+    pub key: String,
+}
+
+impl Parameter {
+    /// An SI value in the reporting unit.
+    pub fn to_unit(&self, si: f64) -> f64 {
+        (si - self.unit_offset) / self.unit_scale
+    }
+}
+
+/// How the residuals of a dataset are weighted.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Weighting {
+    /// `sigma` are absolute standard uncertainties: residual r_i = (y_i − f_i) / σ_i.
+    Absolute,
+    /// `sigma` are known up to one factor per dataset, which the fit estimates from the scatter.
+    Scaled,
+    /// σ_i = fraction · |y_i| (already filled into `sigma`).
+    Relative(f64),
+}
+
+/// Fit options.
+#[derive(Debug, Clone, PartialEq)]
+pub struct FitOptions {
+    /// Confidence level of the reported intervals (0 < level < 1). Default 0.95.
+    pub interval_level: f64,
+    /// Most iterations. Default 200.
+    pub maximum_iterations: usize,
+    /// Relative change of the weighted sum of squares that ends the fit. Default 1e-10.
+    pub tolerance: f64,
+}
+
+impl Default for FitOptions {
+    fn default() -> Self {
+        FitOptions {
+            interval_level: 0.95,
+            maximum_iterations: 200,
+            tolerance: 1e-10,
+        }
+    }
+}
+
+/// A number in a model template: constant (SI) or parameter index.
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum Num {
+    Const(f64),
+    Param(usize),
+}
+
+impl Num {
+    #[inline]
+    fn get(self, p: &[f64]) -> f64 {
+        match self {
+            Num::Const(v) => v,
+            // Indices are checked against the vector length in `model_for`.
+            Num::Param(i) => p.get(i).copied().unwrap_or(f64::NAN),
+        }
+    }
+}
+
+#[derive(Debug, Clone, PartialEq)]
+enum SignalT {
+    Const(Num),
+    Table(Vec<(f64, f64)>),
+    Periodic {
+        mean: Num,
+        amplitude: Num,
+        period: Num,
+        phase: Num,
+    },
+}
+
+impl SignalT {
+    fn make(&self, p: &[f64]) -> Signal {
+        match self {
+            SignalT::Const(n) => Signal::Constant(n.get(p)),
+            SignalT::Table(rows) => Signal::Table(rows.clone()),
+            SignalT::Periodic {
+                mean,
+                amplitude,
+                period,
+                phase,
+            } => Signal::Periodic {
+                mean: mean.get(p),
+                amplitude: amplitude.get(p),
+                period: period.get(p),
+                phase: phase.get(p),
+            },
+        }
+    }
+}
+
+#[derive(Debug, Clone, PartialEq)]
+enum EndT {
+    Value(SignalT),
+    Flux(SignalT),
+    Transfer {
+        coefficient: Num,
+        partition: Num,
+        outside: SignalT,
+    },
+    Sealed,
+}
+
+impl EndT {
+    fn make(&self, p: &[f64]) -> EndCondition {
+        match self {
+            EndT::Value(s) => EndCondition::Value(s.make(p)),
+            EndT::Flux(s) => EndCondition::Flux(s.make(p)),
+            EndT::Transfer {
+                coefficient,
+                partition,
+                outside,
+            } => EndCondition::Transfer {
+                coefficient: coefficient.get(p),
+                partition: partition.get(p),
+                outside: outside.make(p),
+            },
+            EndT::Sealed => EndCondition::Sealed,
+        }
+    }
+}
+
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum LawT {
+    Constant(Num),
+    Exponential(Num, Num, Num),
+    Linear(Num, Num, Num),
+}
+
+impl LawT {
+    fn make(self, p: &[f64]) -> DiffusivityLaw {
+        match self {
+            LawT::Constant(d0) => DiffusivityLaw::constant(d0.get(p)),
+            LawT::Exponential(d0, beta, u_ref) => DiffusivityLaw::Exponential {
+                d0: d0.get(p),
+                beta: beta.get(p),
+                u_ref: u_ref.get(p),
+            },
+            LawT::Linear(d0, beta, u_ref) => DiffusivityLaw::Linear {
+                d0: d0.get(p),
+                beta: beta.get(p),
+                u_ref: u_ref.get(p),
+            },
+        }
+    }
+}
+
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum ThicknessT {
+    Direct(Num),
+    /// outer radius − inner radius
+    Between(Num, Num),
+}
+
+#[derive(Debug, Clone, PartialEq)]
+struct LayerT {
+    thickness: ThicknessT,
+    law: LawT,
+    partition: Num,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+enum InitialT {
+    Uniform(Num),
+    Table(Vec<(f64, f64)>),
+}
+
+#[derive(Debug, Clone, PartialEq)]
+struct ModelT {
+    shape: Shape,
+    inner_radius: Num,
+    layers: Vec<LayerT>,
+    left: EndT,
+    right: EndT,
+    initial: InitialT,
+    exchange_rate: Num,
+    ambient: Num,
+    reaction_rate: Num,
+}
+
+/// One run, resolved: how to build its model, what to ask the solver, what was measured.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Dataset {
+    /// Name as written.
+    pub name: String,
+    /// Data file, resolved relative to the experiment file.
+    pub file: PathBuf,
+    /// Data file as written in the experiment file.
+    pub file_as_written: String,
+    /// Key path of this dataset (`datasets[i]`).
+    pub key: String,
+    /// Times and observables for the solver.
+    pub request: Request,
+    /// Observed values, SI, in data order.
+    pub observed: Vec<f64>,
+    /// Standard uncertainty of each observed value, SI (see [`Dataset::weighting`]).
+    pub sigma: Vec<f64>,
+    /// How `sigma` is to be read.
+    pub weighting: Weighting,
+    /// Data-file line of each observed value (from 1).
+    pub lines: Vec<u64>,
+    /// Position of each observed value, m, where the observable is a value at a position.
+    pub positions: Vec<Option<f64>>,
+    /// For each observed value: (observable index, time index) in the solver's [`Solution`].
+    pub map: Vec<(usize, usize)>,
+    /// Unit label of the measured value as written, for reports.
+    pub value_unit: String,
+    /// Warnings of the data loader.
+    pub warnings: Vec<Warning>,
+    template: ModelT,
+    scale: Option<Num>,
+    offset: Option<Num>,
+    n_params: usize,
+}
+
+impl Dataset {
+    /// Number of observed values.
+    pub fn len(&self) -> usize {
+        self.observed.len()
+    }
+
+    /// True when there are no observed values (never, after a successful load).
+    pub fn is_empty(&self) -> bool {
+        self.observed.is_empty()
+    }
+
+    fn check_len(&self, params: &[f64]) -> Result<()> {
+        if params.len() != self.n_params {
+            return Err(Error::setting(
+                "parameters",
+                format!(
+                    "expected {} parameter values (one per entry of the parameter table), found {}",
+                    self.n_params,
+                    params.len()
+                ),
+            ));
+        }
+        Ok(())
+    }
+
+    /// The forward model of this run for a full parameter vector (every entry of
+    /// [`Experiment::parameters`], SI, in table order). The model is validated; a parameter
+    /// value that makes it meaningless (D ≤ 0, thickness ≤ 0) is an [`Error::Setting`].
+    pub fn model_for(&self, params: &[f64]) -> Result<Model> {
+        self.check_len(params)?;
+        let t = &self.template;
+        let inner = t.inner_radius.get(params);
+        let layers = t
+            .layers
+            .iter()
+            .map(|l| Layer {
+                thickness: match l.thickness {
+                    ThicknessT::Direct(n) => n.get(params),
+                    ThicknessT::Between(outer, inner) => outer.get(params) - inner.get(params),
+                },
+                diffusivity: l.law.make(params),
+                partition_to_next: l.partition.get(params),
+            })
+            .collect();
+        let model = Model {
+            geometry: Geometry {
+                shape: t.shape,
+                inner_radius: inner,
+                layers,
+            },
+            left: t.left.make(params),
+            right: t.right.make(params),
+            initial: match &t.initial {
+                InitialT::Uniform(n) => Initial::Uniform(n.get(params)),
+                InitialT::Table(rows) => Initial::Table(rows.clone()),
+            },
+            sources: Sources {
+                exchange_rate: t.exchange_rate.get(params),
+                exchange_value: t.ambient.get(params),
+                reaction_rate: t.reaction_rate.get(params),
+            },
+        };
+        model.validate()?;
+        Ok(model)
+    }
+
+    /// Predictions for the observed values from a solution of [`Dataset::request`]:
+    /// `f_i = offset + scale · s(o_i, t_i)` (scale 1 and offset 0 when not given), into `out`
+    /// (cleared first).
+    pub fn predict_into(
+        &self,
+        params: &[f64],
+        solution: &Solution,
+        out: &mut Vec<f64>,
+    ) -> Result<()> {
+        self.check_len(params)?;
+        let scale = self.scale.map_or(1.0, |n| n.get(params));
+        let offset = self.offset.map_or(0.0, |n| n.get(params));
+        out.clear();
+        let n_times = self.request.times.len();
+        for &(o, k) in &self.map {
+            let s = solution.series(o);
+            if s.len() != n_times {
+                return Err(Error::Internal(format!(
+                    "solution does not belong to the request of dataset '{}'",
+                    self.name
+                )));
+            }
+            let v = s
+                .get(k)
+                .copied()
+                .ok_or_else(|| Error::Internal(format!("time index {k} outside the solution")))?;
+            out.push(offset + scale * v);
+        }
+        Ok(())
+    }
+
+    /// [`Dataset::predict_into`] into a new vector.
+    pub fn predict(&self, params: &[f64], solution: &Solution) -> Result<Vec<f64>> {
+        let mut out = Vec::with_capacity(self.map.len());
+        self.predict_into(params, solution, &mut out)?;
+        Ok(out)
+    }
+}
+
+/// A resolved experiment, SI units throughout.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Experiment {
+    /// The experiment file as named by the caller.
+    pub file: PathBuf,
+    /// Title, when given.
+    pub title: Option<String>,
+    /// The sample's value unit as written (K, degC, mol/m3...).
+    pub value_unit: String,
+    /// Every parameter (free and fixed), in order of first use.
+    pub parameters: Vec<Parameter>,
+    /// The runs, in file order.
+    pub datasets: Vec<Dataset>,
+    /// Solver options.
+    pub solver: SolverOptions,
+    /// Fit options.
+    pub fit: FitOptions,
+}
+
+impl Experiment {
+    /// Start values of every parameter, SI.
+    pub fn start_values(&self) -> Vec<f64> {
+        self.parameters.iter().map(|p| p.start).collect()
+    }
+
+    /// Index of a parameter by its full name (`D`, `M_inf[sorption]`).
+    pub fn parameter_index(&self, name: &str) -> Option<usize> {
+        self.parameters.iter().position(|p| p.name == name)
+    }
+
+    /// Number of free parameters.
+    pub fn free_count(&self) -> usize {
+        self.parameters.iter().filter(|p| p.free).count()
+    }
+
+    /// Number of observed values over all datasets.
+    pub fn point_count(&self) -> usize {
+        self.datasets.iter().map(Dataset::len).sum()
+    }
+}
+
+/// Which numbers must be positive.
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum Check {
+    Any,
+    Positive,
+    NonNegative,
+}
+
+struct Builder<'a> {
+    index: &'a SpanIndex,
+    base: PathBuf,
+    value_unit: Unit,
+    specs: &'a BTreeMap<String, ParameterSpec>,
+    params: Vec<Parameter>,
+    /// (name, dataset or None) → index in params.
+    lookup: BTreeMap<(String, Option<usize>), usize>,
+    dataset: Option<(usize, &'a DatasetSpec)>,
+}
+
+fn input(b: &Builder<'_>, kind: InputKind, key: &str, msg: impl Into<String>) -> Error {
+    Error::input(kind, b.index.location(key), msg)
+}
+
+impl<'a> Builder<'a> {
+    fn err(&self, kind: InputKind, key: &str, msg: impl Into<String>) -> Error {
+        input(self, kind, key, msg)
+    }
+
+    /// A literal (never a parameter) of a kind, SI.
+    fn literal(
+        &self,
+        s: &Scalar,
+        kind: Kind,
+        check: Check,
+        key: &str,
+    ) -> Result<(f64, quantity::Conversion)> {
+        let (number, unit) = match s {
+            Scalar::Number(x) => (*x, None),
+            Scalar::Text(t) => {
+                if !quantity::looks_numeric(t) {
+                    return Err(self.err(
+                        InputKind::BadValue,
+                        key,
+                        format!("expected a number with unit for '{key}', found '{t}'"),
+                    ));
+                }
+                let w = quantity::split_number(t).ok_or_else(|| {
+                    self.err(
+                        InputKind::BadValue,
+                        key,
+                        format!("'{t}' is not a finite number with unit (for '{key}')"),
+                    )
+                })?;
+                (w.number, w.unit)
+            }
+        };
+        if !number.is_finite() {
+            return Err(self.err(
+                InputKind::NotFinite,
+                key,
+                format!("'{key}' must be finite, found {number}"),
+            ));
+        }
+        let conv = quantity::conversion(kind, unit.as_deref(), &self.value_unit).map_err(|m| {
+            self.err(
+                InputKind::UnknownUnit,
+                key,
+                format!("{m} (key '{key}', a {})", kind.name()),
+            )
+        })?;
+        let v = conv.to_si(number);
+        self.check(v, check, kind, key, s)?;
+        Ok((v, conv))
+    }
+
+    fn check(&self, v: f64, check: Check, kind: Kind, key: &str, s: &Scalar) -> Result<()> {
+        let written = match s {
+            Scalar::Number(x) => x.to_string(),
+            Scalar::Text(t) => format!("'{t}'"),
+        };
+        let bad = match check {
+            Check::Any => false,
+            Check::Positive => v <= 0.0,
+            Check::NonNegative => v < 0.0,
+        };
+        if bad {
+            let want = if check == Check::Positive {
+                "positive"
+            } else {
+                "zero or positive"
+            };
+            return Err(self.err(
+                InputKind::BadValue,
+                key,
+                format!("'{key}' must be a {want} {}, found {written}", kind.name()),
+            ));
+        }
+        Ok(())
+    }
+
+    /// A number that may be a parameter name.
+    fn num(&mut self, s: &Scalar, kind: Kind, check: Check, key: &str) -> Result<Num> {
+        if let Scalar::Text(t) = s {
+            let t = t.trim();
+            if !quantity::looks_numeric(t) {
+                if !quantity::is_name(t) {
+                    return Err(self.err(
+                        InputKind::BadValue,
+                        key,
+                        format!("expected a number with unit or a parameter name for '{key}', found '{t}'"),
+                    ));
+                }
+                return self.param(t, kind, check, key).map(Num::Param);
+            }
+        }
+        self.literal(s, kind, check, key)
+            .map(|(v, _)| Num::Const(v))
+    }
+
+    fn opt_num(
+        &mut self,
+        s: Option<&Scalar>,
+        default: f64,
+        kind: Kind,
+        check: Check,
+        key: &str,
+    ) -> Result<Num> {
+        match s {
+            Some(s) => self.num(s, kind, check, key),
+            None => Ok(Num::Const(default)),
+        }
+    }
+
+    /// The index of a parameter used at `key` as a `kind`, defining it on first use.
+    fn param(&mut self, name: &str, kind: Kind, check: Check, key: &str) -> Result<usize> {
+        let Some(spec) = self.specs.get(name) else {
+            let hint = suggest::did_you_mean(name, self.specs.keys().map(String::as_str));
+            let known = if self.specs.is_empty() {
+                "no parameters are defined".to_string()
+            } else {
+                format!(
+                    "defined: {}",
+                    self.specs.keys().cloned().collect::<Vec<_>>().join(", ")
+                )
+            };
+            return Err(self.err(
+                InputKind::UndefinedParameter,
+                key,
+                format!("'{key}' refers to parameter '{name}', which is not defined under [parameters]{hint}; {known}"),
+            ));
+        };
+        let ds = if spec.per_dataset {
+            self.dataset.map(|d| d.0)
+        } else {
+            None
+        };
+        if spec.per_dataset && ds.is_none() {
+            return Err(self.err(
+                InputKind::BadValue,
+                key,
+                format!("per-dataset parameter '{name}' used outside any dataset"),
+            ));
+        }
+        if let Some(&i) = self.lookup.get(&(name.to_string(), ds)) {
+            let p = &self.params[i];
+            if p.kind != kind {
+                return Err(self.err(
+                    InputKind::BadValue,
+                    key,
+                    format!(
+                        "parameter '{name}' is used here as a {} but elsewhere as a {}; use two parameters",
+                        kind.name(),
+                        p.kind.name()
+                    ),
+                ));
+            }
+            return Ok(i);
+        }
+        let pkey = format!("parameters.{name}");
+        // A per-dataset start value may be given in the dataset.
+        let (start_scalar, start_key) = match self.dataset {
+            Some((i, d)) if spec.per_dataset => match d.starts.as_ref().and_then(|s| s.get(name)) {
+                Some(s) => (s, format!("datasets[{i}].starts.{name}")),
+                None => (&spec.start, format!("{pkey}.start")),
+            },
+            _ => (&spec.start, format!("{pkey}.start")),
+        };
+        if let Scalar::Text(t) = start_scalar {
+            if !quantity::looks_numeric(t) {
+                let what = if t.trim() == name {
+                    format!("parameter '{name}' is defined from itself")
+                } else {
+                    format!("the start of '{name}' refers to '{}'; parameters cannot be defined from other parameters", t.trim())
+                };
+                return Err(self.err(
+                    InputKind::BadValue,
+                    &start_key,
+                    format!(
+                        "{what}: give a number with unit, such as \"{}\"",
+                        example(kind)
+                    ),
+                ));
+            }
+        }
+        let (start, conv) = self.literal(start_scalar, kind, check, &start_key)?;
+        let lower = match &spec.lower {
+            Some(s) => Some(
+                self.literal(s, kind, Check::Any, &format!("{pkey}.lower"))?
+                    .0,
+            ),
+            None => None,
+        };
+        let upper = match &spec.upper {
+            Some(s) => Some(
+                self.literal(s, kind, Check::Any, &format!("{pkey}.upper"))?
+                    .0,
+            ),
+            None => None,
+        };
+        if let (Some(lo), Some(hi)) = (lower, upper) {
+            if lo >= hi {
+                return Err(self.err(
+                    InputKind::BadBounds,
+                    &format!("{pkey}.lower"),
+                    format!("parameter '{name}': lower bound {lo:e} must be below the upper bound {hi:e} (SI)"),
+                ));
+            }
+        }
+        if lower.is_some_and(|lo| start < lo) || upper.is_some_and(|hi| start > hi) {
+            return Err(self.err(
+                InputKind::BadBounds,
+                &start_key,
+                format!(
+                    "parameter '{name}': start value {start:e} lies outside its bounds [{}, {}] (SI)",
+                    lower.map_or("-inf".into(), |v| format!("{v:e}")),
+                    upper.map_or("inf".into(), |v| format!("{v:e}")),
+                ),
+            ));
+        }
+        let log = match spec.transform {
+            Some(TransformName::Log) => {
+                if start <= 0.0 || lower.is_some_and(|lo| lo <= 0.0) {
+                    return Err(self.err(
+                        InputKind::BadBounds,
+                        &format!("{pkey}.transform"),
+                        format!("parameter '{name}': a log transform needs a positive start value and lower bound"),
+                    ));
+                }
+                true
+            }
+            Some(TransformName::None) => false,
+            None => {
+                matches!(kind, Kind::Diffusivity | Kind::Rate | Kind::Speed)
+                    && start > 0.0
+                    && lower.is_none_or(|lo| lo > 0.0)
+            }
+        };
+        let full = match ds.and(self.dataset) {
+            Some((_, d)) => format!("{name}[{}]", d.name),
+            None => name.to_string(),
+        };
+        let label = if conv.label.is_empty() {
+            kind.bare_unit(&self.value_unit)
+        } else {
+            conv.label.clone()
+        };
+        self.params.push(Parameter {
+            name: full,
+            base_name: name.to_string(),
+            dataset: ds,
+            unit: label,
+            unit_scale: conv.scale,
+            unit_offset: conv.offset,
+            kind,
+            start,
+            lower,
+            upper,
+            free: !spec.fixed,
+            log,
+            key: pkey,
+        });
+        let i = self.params.len() - 1;
+        self.lookup.insert((name.to_string(), ds), i);
+        Ok(i)
+    }
+
+    fn resolve_path(&self, written: &str, key: &str) -> Result<PathBuf> {
+        let resolved = self.base.join(written);
+        if let Err(e) = std::fs::File::open(&resolved) {
+            return Err(self.err(
+                InputKind::Unreadable,
+                key,
+                format!(
+                    "cannot read data file '{written}' (as written), resolved to '{}': {e}",
+                    resolved.display()
+                ),
+            ));
+        }
+        Ok(resolved)
+    }
+
+    fn signal(&mut self, s: &SignalSpec, kind: Kind, key: &str) -> Result<SignalT> {
+        let t = match s {
+            SignalSpec::Scalar(sc) => {
+                return self.num(sc, kind, Check::Any, key).map(SignalT::Const)
+            }
+            SignalSpec::Table(t) => &**t,
+        };
+        let has_rows = t.rows.is_some();
+        let has_periodic =
+            t.mean.is_some() || t.amplitude.is_some() || t.period.is_some() || t.phase.is_some();
+        let has_file = t.file.is_some();
+        if usize::from(has_rows) + usize::from(has_periodic) + usize::from(has_file) != 1 {
+            return Err(self.err(
+                InputKind::BadValue,
+                key,
+                format!("'{key}' must give exactly one of: rows (a time table), mean/amplitude/period (a periodic signal), file (a data column)"),
+            ));
+        }
+        if let Some(rows) = &t.rows {
+            let tu = t.time_unit.as_deref().ok_or_else(|| {
+                self.err(
+                    InputKind::MissingKey,
+                    &format!("{key}.time_unit"),
+                    format!("'{key}.rows' needs 'time_unit' (s, min, h or d)"),
+                )
+            })?;
+            let tc = quantity::conversion(Kind::Time, Some(tu), &self.value_unit)
+                .map_err(|m| self.err(InputKind::UnknownUnit, &format!("{key}.time_unit"), m))?;
+            let vc = quantity::conversion(kind, t.value_unit.as_deref(), &self.value_unit)
+                .map_err(|m| self.err(InputKind::UnknownUnit, &format!("{key}.value_unit"), m))?;
+            let rows: Vec<(f64, f64)> = rows
+                .iter()
+                .map(|r| (tc.to_si(r[0]), vc.to_si(r[1])))
+                .collect();
+            check_rows(self, &rows, &format!("{key}.rows"), "times")?;
+            return Ok(SignalT::Table(rows));
+        }
+        if has_periodic {
+            for (k, v) in [
+                ("mean", &t.mean),
+                ("amplitude", &t.amplitude),
+                ("period", &t.period),
+            ] {
+                if v.is_none() {
+                    return Err(self.err(
+                        InputKind::MissingKey,
+                        &format!("{key}.{k}"),
+                        format!("a periodic signal needs '{k}'"),
+                    ));
+                }
+            }
+            let diff = if kind == Kind::Value {
+                Kind::ValueDifference
+            } else {
+                kind
+            };
+            let z = Scalar::Number(0.0);
+            return Ok(SignalT::Periodic {
+                mean: self.num(
+                    t.mean.as_ref().unwrap_or(&z),
+                    kind,
+                    Check::Any,
+                    &format!("{key}.mean"),
+                )?,
+                amplitude: self.num(
+                    t.amplitude.as_ref().unwrap_or(&z),
+                    diff,
+                    Check::Any,
+                    &format!("{key}.amplitude"),
+                )?,
+                period: self.num(
+                    t.period.as_ref().unwrap_or(&z),
+                    Kind::Time,
+                    Check::Positive,
+                    &format!("{key}.period"),
+                )?,
+                phase: self.opt_num(
+                    t.phase.as_ref(),
+                    0.0,
+                    Kind::Angle,
+                    Check::Any,
+                    &format!("{key}.phase"),
+                )?,
+            });
+        }
+        // A column of a data file.
+        let written = t.file.clone().unwrap_or_default();
+        let path = self.resolve_path(&written, &format!("{key}.file"))?;
+        let time_col = t.time_column.as_deref().ok_or_else(|| {
+            self.err(
+                InputKind::MissingKey,
+                &format!("{key}.time_column"),
+                "a signal from a file needs 'time_column'",
+            )
+        })?;
+        let value_col = t.value_column.as_deref().ok_or_else(|| {
+            self.err(
+                InputKind::MissingKey,
+                &format!("{key}.value_column"),
+                "a signal from a file needs 'value_column'",
+            )
+        })?;
+        let origin = match &t.time_origin {
+            Some(s) => Some(
+                self.literal(s, Kind::Time, Check::Any, &format!("{key}.time_origin"))?
+                    .0,
+            ),
+            None => None,
+        };
+        let mut cols = SeriesColumns::new(time_col, value_col);
+        if kind == Kind::Value && self.value_unit.quantity() == Quantity::Arbitrary {
+            cols.value = ColumnSpec::new(value_col).with_unit(self.value_unit.clone());
+        }
+        let opts = ReadOptions {
+            time_origin: origin,
+            min_points: 1,
+            ..Default::default()
+        };
+        let loaded = data::read_time_series(&path, &cols, &opts)?;
+        let series = loaded.data.into_iter().next().ok_or_else(|| {
+            self.err(
+                InputKind::Empty,
+                &format!("{key}.file"),
+                format!("'{written}' holds no rows"),
+            )
+        })?;
+        if kind == Kind::Value
+            && self.value_unit.quantity() != Quantity::Arbitrary
+            && series.value_unit.quantity() != self.value_unit.quantity()
+        {
+            return Err(self.err(
+                InputKind::UnknownUnit,
+                &format!("{key}.value_column"),
+                format!(
+                    "column '{}' of '{written}' is in '{}', but the sample's values are a {}",
+                    series.value_column,
+                    series.value_unit.label(),
+                    self.value_unit.quantity()
+                ),
+            ));
+        }
+        Ok(SignalT::Table(
+            series.time.into_iter().zip(series.value).collect(),
+        ))
+    }
+
+    fn end(&mut self, e: &EndSpec, key: &str, centre: bool) -> Result<EndT> {
+        let count = usize::from(e.value.is_some())
+            + usize::from(e.flux.is_some())
+            + usize::from(e.transfer.is_some())
+            + usize::from(e.sealed.is_some());
+        if count != 1 {
+            let kind = if count == 0 {
+                InputKind::MissingKey
+            } else {
+                InputKind::BadValue
+            };
+            return Err(self.err(
+                kind,
+                key,
+                format!("'{key}' must give exactly one of: value, flux, transfer, sealed"),
+            ));
+        }
+        let end = if let Some(v) = &e.value {
+            EndT::Value(self.signal(v, Kind::Value, &format!("{key}.value"))?)
+        } else if let Some(f) = &e.flux {
+            EndT::Flux(self.signal(f, Kind::Flux, &format!("{key}.flux"))?)
+        } else if let Some(t) = &e.transfer {
+            let k = format!("{key}.transfer");
+            EndT::Transfer {
+                coefficient: self.num(
+                    &t.coefficient,
+                    Kind::Speed,
+                    Check::Positive,
+                    &format!("{k}.coefficient"),
+                )?,
+                partition: self.opt_num(
+                    t.partition.as_ref(),
+                    1.0,
+                    Kind::Dimensionless,
+                    Check::Positive,
+                    &format!("{k}.partition"),
+                )?,
+                outside: self.signal(&t.outside, Kind::Value, &format!("{k}.outside"))?,
+            }
+        } else if e.sealed == Some(true) {
+            EndT::Sealed
+        } else {
+            return Err(self.err(
+                InputKind::BadValue,
+                &format!("{key}.sealed"),
+                "'sealed = false' says nothing; give value, flux or transfer instead",
+            ));
+        };
+        if centre && end != EndT::Sealed {
+            return Err(self.err(
+                InputKind::BadValue,
+                key,
+                "the left end of a solid cylinder or sphere is its centre: leave it out (or sealed), or give sample.inner_radius for a hollow body",
+            ));
+        }
+        Ok(end)
+    }
+
+    fn initial(&mut self, s: &InitialSpec, key: &str) -> Result<InitialT> {
+        match (&s.value, &s.rows) {
+            (Some(v), None) => Ok(InitialT::Uniform(self.num(
+                v,
+                Kind::Value,
+                Check::Any,
+                &format!("{key}.value"),
+            )?)),
+            (None, Some(rows)) => {
+                let pu = s.position_unit.as_deref().ok_or_else(|| {
+                    self.err(
+                        InputKind::MissingKey,
+                        &format!("{key}.position_unit"),
+                        format!("'{key}.rows' needs 'position_unit'"),
+                    )
+                })?;
+                let pc = quantity::conversion(Kind::Length, Some(pu), &self.value_unit).map_err(
+                    |m| self.err(InputKind::UnknownUnit, &format!("{key}.position_unit"), m),
+                )?;
+                let vc =
+                    quantity::conversion(Kind::Value, s.value_unit.as_deref(), &self.value_unit)
+                        .map_err(|m| {
+                            self.err(InputKind::UnknownUnit, &format!("{key}.value_unit"), m)
+                        })?;
+                let rows: Vec<(f64, f64)> = rows
+                    .iter()
+                    .map(|r| (pc.to_si(r[0]), vc.to_si(r[1])))
+                    .collect();
+                check_rows(self, &rows, &format!("{key}.rows"), "positions")?;
+                Ok(InitialT::Table(rows))
+            }
+            (None, None) => Err(self.err(
+                InputKind::MissingKey,
+                &format!("{key}.value"),
+                format!("'{key}' needs 'value' (uniform) or 'rows'"),
+            )),
+            (Some(_), Some(_)) => Err(self.err(
+                InputKind::BadValue,
+                key,
+                format!("'{key}' takes 'value' or 'rows', not both"),
+            )),
+        }
+    }
+
+    fn law(&mut self, l: &LawSpec, key: &str) -> Result<LawT> {
+        match l {
+            LawSpec::Scalar(s) => Ok(LawT::Constant(self.num(
+                s,
+                Kind::Diffusivity,
+                Check::Positive,
+                key,
+            )?)),
+            LawSpec::Table(t) => {
+                let d0 = self.num(
+                    &t.d0,
+                    Kind::Diffusivity,
+                    Check::Positive,
+                    &format!("{key}.d0"),
+                )?;
+                if t.law == LawName::Constant {
+                    if t.beta.is_some() || t.u_ref.is_some() {
+                        return Err(self.err(
+                            InputKind::BadValue,
+                            key,
+                            "a constant law takes only 'd0'",
+                        ));
+                    }
+                    return Ok(LawT::Constant(d0));
+                }
+                let beta = t.beta.as_ref().ok_or_else(|| {
+                    self.err(
+                        InputKind::MissingKey,
+                        &format!("{key}.beta"),
+                        "this law needs 'beta'",
+                    )
+                })?;
+                let beta = self.num(
+                    beta,
+                    Kind::Dimensionless,
+                    Check::Any,
+                    &format!("{key}.beta"),
+                )?;
+                let u_ref = t.u_ref.as_ref().ok_or_else(|| {
+                    self.err(
+                        InputKind::MissingKey,
+                        &format!("{key}.u_ref"),
+                        "this law needs 'u_ref'",
+                    )
+                })?;
+                let u_ref = self.num(
+                    u_ref,
+                    Kind::ValueDifference,
+                    Check::Positive,
+                    &format!("{key}.u_ref"),
+                )?;
+                Ok(match t.law {
+                    LawName::Exponential => LawT::Exponential(d0, beta, u_ref),
+                    _ => LawT::Linear(d0, beta, u_ref),
+                })
+            }
+        }
+    }
+
+    fn geometry(&mut self, s: &SampleSpec) -> Result<(Shape, Num, Vec<LayerT>)> {
+        let shape = match s.shape {
+            ShapeName::Slab => Shape::Slab,
+            ShapeName::Cylinder => Shape::Cylinder,
+            ShapeName::Sphere => Shape::Sphere,
+        };
+        if shape == Shape::Slab {
+            for (k, v) in [("radius", &s.radius), ("inner_radius", &s.inner_radius)] {
+                if v.is_some() {
+                    return Err(self.err(
+                        InputKind::BadValue,
+                        &format!("sample.{k}"),
+                        format!("a slab has no '{k}'; give 'thickness'"),
+                    ));
+                }
+            }
+        } else if s.thickness.is_some() {
+            return Err(self.err(InputKind::BadValue, "sample.thickness", "a cylinder or sphere is sized by 'radius' (and 'inner_radius' when hollow), or by layers"));
+        }
+        let inner = self.opt_num(
+            s.inner_radius.as_ref(),
+            0.0,
+            Kind::Length,
+            Check::NonNegative,
+            "sample.inner_radius",
+        )?;
+        if let Some(layers) = &s.layers {
+            for k in ["thickness", "radius", "diffusivity"] {
+                let given = match k {
+                    "thickness" => s.thickness.is_some(),
+                    "radius" => s.radius.is_some(),
+                    _ => s.diffusivity.is_some(),
+                };
+                if given {
+                    return Err(self.err(
+                        InputKind::BadValue,
+                        &format!("sample.{k}"),
+                        format!("with [[sample.layers]], give '{k}' in each layer instead"),
+                    ));
+                }
+            }
+            if layers.is_empty() {
+                return Err(self.err(
+                    InputKind::BadValue,
+                    "sample.layers",
+                    "give at least one layer",
+                ));
+            }
+            let mut out = Vec::with_capacity(layers.len());
+            for (i, l) in layers.iter().enumerate() {
+                let k = format!("sample.layers[{i}]");
+                out.push(LayerT {
+                    thickness: ThicknessT::Direct(self.num(
+                        &l.thickness,
+                        Kind::Length,
+                        Check::Positive,
+                        &format!("{k}.thickness"),
+                    )?),
+                    law: self.law(&l.diffusivity, &format!("{k}.diffusivity"))?,
+                    partition: self.opt_num(
+                        l.partition_to_next.as_ref(),
+                        1.0,
+                        Kind::Dimensionless,
+                        Check::Positive,
+                        &format!("{k}.partition_to_next"),
+                    )?,
+                });
+            }
+            return Ok((shape, inner, out));
+        }
+        let law = match &s.diffusivity {
+            Some(l) => self.law(l, "sample.diffusivity")?,
+            None => {
+                return Err(self.err(
+                    InputKind::MissingKey,
+                    "sample.diffusivity",
+                    "give 'diffusivity' (or [[sample.layers]])",
+                ))
+            }
+        };
+        let thickness = if shape == Shape::Slab {
+            let t = s.thickness.as_ref().ok_or_else(|| {
+                self.err(
+                    InputKind::MissingKey,
+                    "sample.thickness",
+                    "a slab needs 'thickness' (or [[sample.layers]])",
+                )
+            })?;
+            ThicknessT::Direct(self.num(t, Kind::Length, Check::Positive, "sample.thickness")?)
+        } else {
+            let r = s.radius.as_ref().ok_or_else(|| {
+                self.err(
+                    InputKind::MissingKey,
+                    "sample.radius",
+                    "a cylinder or sphere needs 'radius' (or [[sample.layers]])",
+                )
+            })?;
+            let outer = self.num(r, Kind::Length, Check::Positive, "sample.radius")?;
+            if let (Num::Const(o), Num::Const(i)) = (outer, inner) {
+                if o <= i {
+                    return Err(self.err(
+                        InputKind::BadValue,
+                        "sample.radius",
+                        format!("the radius ({o:e} m) must exceed the inner radius ({i:e} m)"),
+                    ));
+                }
+            }
+            ThicknessT::Between(outer, inner)
+        };
+        Ok((
+            shape,
+            inner,
+            vec![LayerT {
+                thickness,
+                law,
+                partition: Num::Const(1.0),
+            }],
+        ))
+    }
+}
+
+/// The sample's extent (left, right coordinate, m) when it does not depend on parameters.
+fn const_extent(t: &ModelT) -> Option<(f64, f64)> {
+    let Num::Const(inner) = t.inner_radius else {
+        return None;
+    };
+    let mut total = 0.0;
+    for l in &t.layers {
+        total += match l.thickness {
+            ThicknessT::Direct(Num::Const(v)) => v,
+            ThicknessT::Between(Num::Const(o), Num::Const(i)) => o - i,
+            _ => return None,
+        };
+    }
+    Some((inner, inner + total))
+}
+
+fn example(kind: Kind) -> &'static str {
+    match kind {
+        Kind::Length => "120 um",
+        Kind::Time => "10 min",
+        Kind::Diffusivity => "1e-12 m2/s",
+        Kind::Rate => "0.001 1/s",
+        Kind::Speed => "1e-6 m/s",
+        Kind::Value => "25 degC",
+        Kind::ValueDifference => "5 degC",
+        Kind::Flux => "1e-3 K m/s",
+        Kind::Dimensionless | Kind::Measured => "1.0",
+        Kind::Angle => "0 rad",
+    }
+}
+
+fn check_rows(b: &Builder<'_>, rows: &[(f64, f64)], key: &str, what: &str) -> Result<()> {
+    if rows.is_empty() {
+        return Err(b.err(InputKind::BadValue, key, format!("'{key}' has no rows")));
+    }
+    for (i, w) in rows.windows(2).enumerate() {
+        if w[1].0 <= w[0].0 {
+            return Err(b.err(
+                InputKind::BadValue,
+                key,
+                format!(
+                    "'{key}': {what} must increase, row {} is not after row {}",
+                    i + 2,
+                    i + 1
+                ),
+            ));
+        }
+    }
+    Ok(())
+}
+
+fn end_of(e: EndName) -> End {
+    match e {
+        EndName::Left => End::Left,
+        EndName::Right => End::Right,
+    }
+}
+
+/// Resolve a parsed file. `base` is the directory data paths are relative to.
+pub(super) fn build(file: &ExperimentFile, index: &SpanIndex, base: &Path) -> Result<Experiment> {
+    let mut b = Builder {
+        index,
+        base: base.to_path_buf(),
+        value_unit: quantity::value_unit(&file.sample.value_unit),
+        specs: &file.parameters,
+        params: Vec::new(),
+        lookup: BTreeMap::new(),
+        dataset: None,
+    };
+    if file.sample.value_unit.trim().is_empty() {
+        return Err(b.err(
+            InputKind::BadValue,
+            "sample.value_unit",
+            "give the unit of the sample's values (K, degC, mol/m3, ...)",
+        ));
+    }
+    for name in file.parameters.keys() {
+        if !quantity::is_name(name) {
+            return Err(b.err(InputKind::BadValue, &format!("parameters.{name}"), format!("'{name}' is not a parameter name: use letters, digits and _, starting with a letter")));
+        }
+    }
+    if file.datasets.is_empty() {
+        return Err(b.err(
+            InputKind::MissingKey,
+            "datasets",
+            "give at least one [[datasets]]",
+        ));
+    }
+    let mut datasets = Vec::with_capacity(file.datasets.len());
+    for (i, d) in file.datasets.iter().enumerate() {
+        if file.datasets[..i].iter().any(|o| o.name == d.name) {
+            return Err(b.err(
+                InputKind::BadValue,
+                &format!("datasets[{i}].name"),
+                format!("dataset name '{}' is used twice", d.name),
+            ));
+        }
+        b.dataset = Some((i, d));
+        datasets.push(dataset(&mut b, file, i, d)?);
+    }
+    // Per-dataset start values must name per-dataset parameters.
+    for (i, d) in file.datasets.iter().enumerate() {
+        for name in d.starts.iter().flat_map(|s| s.keys()) {
+            let key = format!("datasets[{i}].starts.{name}");
+            match file.parameters.get(name) {
+                None => {
+                    let hint =
+                        suggest::did_you_mean(name, file.parameters.keys().map(String::as_str));
+                    return Err(b.err(
+                        InputKind::UndefinedParameter,
+                        &key,
+                        format!("'{name}' is not a defined parameter{hint}"),
+                    ));
+                }
+                Some(p) if !p.per_dataset => {
+                    return Err(b.err(InputKind::BadValue, &key, format!("'{name}' is shared; only per_dataset parameters take a start per dataset")));
+                }
+                _ => {}
+            }
+        }
+    }
+    for name in file.parameters.keys() {
+        if !b.lookup.keys().any(|(n, _)| n == name) {
+            return Err(b.err(
+                InputKind::BadValue,
+                &format!("parameters.{name}"),
+                format!("parameter '{name}' is defined but never used; remove it or refer to it"),
+            ));
+        }
+    }
+    let n_params = b.params.len();
+    for d in &mut datasets {
+        d.n_params = n_params;
+    }
+    let params = b.params;
+    let free = params.iter().filter(|p| p.free).count();
+    let points: usize = datasets.iter().map(Dataset::len).sum();
+    if points < free + 1 {
+        return Err(Error::input(
+            InputKind::TooFewPoints,
+            index.location("datasets"),
+            format!(
+                "{points} data points for {free} free parameters: a fit needs at least {} points",
+                free + 1
+            ),
+        ));
+    }
+    let exp = Experiment {
+        file: index.file().to_path_buf(),
+        title: file.title.clone(),
+        value_unit: file.sample.value_unit.clone(),
+        parameters: params,
+        datasets,
+        solver: solver_options(&file.solver, index)?,
+        fit: fit_options(&file.fit, index)?,
+    };
+    // The model must make sense at the start values.
+    let start = exp.start_values();
+    for d in &exp.datasets {
+        if let Err(e) = d.model_for(&start) {
+            return Err(Error::input(
+                InputKind::BadValue,
+                index.location(&d.key),
+                format!(
+                    "at the start values, the model of dataset '{}' is not valid: {e}",
+                    d.name
+                ),
+            ));
+        }
+    }
+    Ok(exp)
+}
+
+fn solver_options(s: &SolverSpec, index: &SpanIndex) -> Result<SolverOptions> {
+    let d = SolverOptions::default();
+    let g = GridOptions::default();
+    let o = SolverOptions {
+        tolerance: s.tolerance.unwrap_or(d.tolerance),
+        grid: GridOptions {
+            smallest_cell: s.smallest_cell.unwrap_or(g.smallest_cell),
+            largest_cell: s.largest_cell.unwrap_or(g.largest_cell),
+            growth: s.growth.unwrap_or(g.growth),
+            uniform_cells: s.uniform_cells,
+        },
+        maximum_steps: s.maximum_steps.unwrap_or(d.maximum_steps),
+        maximum_newton_iterations: d.maximum_newton_iterations,
+    };
+    o.validate()
+        .map_err(|e| Error::input(InputKind::BadValue, index.location("solver"), e.to_string()))?;
+    Ok(o)
+}
+
+fn fit_options(s: &FitSpec, index: &SpanIndex) -> Result<FitOptions> {
+    let d = FitOptions::default();
+    let o = FitOptions {
+        interval_level: s.interval_level.unwrap_or(d.interval_level),
+        maximum_iterations: s.maximum_iterations.unwrap_or(d.maximum_iterations),
+        tolerance: s.tolerance.unwrap_or(d.tolerance),
+    };
+    if !(o.interval_level > 0.0 && o.interval_level < 1.0) {
+        return Err(Error::input(
+            InputKind::BadValue,
+            index.location("fit.interval_level"),
+            format!(
+                "must be between 0 and 1 (0.95 for 95 %), found {}",
+                o.interval_level
+            ),
+        ));
+    }
+    if o.maximum_iterations == 0 {
+        return Err(Error::input(
+            InputKind::BadValue,
+            index.location("fit.maximum_iterations"),
+            "must be at least 1",
+        ));
+    }
+    if !(o.tolerance > 0.0 && o.tolerance < 1.0) {
+        return Err(Error::input(
+            InputKind::BadValue,
+            index.location("fit.tolerance"),
+            format!("must be between 0 and 1, found {}", o.tolerance),
+        ));
+    }
+    Ok(o)
+}
+
+/// The unit to read a dataset's value column(s) in, when the header's is not to be used.
+fn measured_unit(b: &Builder<'_>, d: &DatasetSpec) -> Option<Unit> {
+    match &d.value_unit {
+        Some(u) => Some(Unit::parse(u).unwrap_or_else(|_| Unit::arbitrary(u.as_str()))),
+        None if b.value_unit.quantity() == Quantity::Arbitrary
+            && matches!(d.observe, ObserveName::Value | ObserveName::Mean) =>
+        {
+            Some(b.value_unit.clone())
+        }
+        None => None,
+    }
+}
+
+fn dataset(
+    b: &mut Builder<'_>,
+    file: &ExperimentFile,
+    i: usize,
+    d: &DatasetSpec,
+) -> Result<Dataset> {
+    let key = format!("datasets[{i}]");
+    let k = |s: &str| format!("{key}.{s}");
+    // The model template: top-level sections with this run's replacements.
+    let (shape, inner, layers) = b.geometry(&file.sample)?;
+    let centre = shape != Shape::Slab && inner == Num::Const(0.0);
+    let ov = d.ends.clone().unwrap_or_default();
+    let left = match (&ov.left, &file.ends.left) {
+        (Some(e), _) => b.end(e, &k("ends.left"), centre)?,
+        (None, Some(e)) => b.end(e, "ends.left", centre)?,
+        (None, None) if centre => EndT::Sealed,
+        (None, None) => {
+            return Err(b.err(
+                InputKind::MissingKey,
+                "ends.left",
+                "give the left end: value, flux, transfer or sealed",
+            ))
+        }
+    };
+    let right = match &ov.right {
+        Some(e) => b.end(e, &k("ends.right"), false)?,
+        None => b.end(&file.ends.right, "ends.right", false)?,
+    };
+    let initial = match &d.initial {
+        Some(s) => b.initial(s, &k("initial"))?,
+        None => b.initial(&file.initial, "initial")?,
+    };
+    let vol = file.volume.clone().unwrap_or_default();
+    let exchange_rate = b.opt_num(
+        vol.exchange_rate.as_ref(),
+        0.0,
+        Kind::Rate,
+        Check::NonNegative,
+        "volume.exchange_rate",
+    )?;
+    let ambient = match (&vol.ambient, &vol.exchange_rate) {
+        (Some(a), _) => b.num(a, Kind::Value, Check::Any, "volume.ambient")?,
+        (None, Some(_)) => {
+            return Err(b.err(
+                InputKind::MissingKey,
+                "volume.ambient",
+                "an exchange rate needs the 'ambient' value it exchanges with",
+            ))
+        }
+        (None, None) => Num::Const(0.0),
+    };
+    let reaction_rate = b.opt_num(
+        vol.reaction_rate.as_ref(),
+        0.0,
+        Kind::Rate,
+        Check::NonNegative,
+        "volume.reaction_rate",
+    )?;
+    let template = ModelT {
+        shape,
+        inner_radius: inner,
+        layers,
+        left,
+        right,
+        initial,
+        exchange_rate,
+        ambient,
+        reaction_rate,
+    };
+
+    // The data.
+    let path = b.resolve_path(&d.file, &k("file"))?;
+    let origin = match &d.time_origin {
+        Some(s) => Some(b.literal(s, Kind::Time, Check::Any, &k("time_origin"))?.0),
+        None => None,
+    };
+    let extent = const_extent(&template);
+    let opts = ReadOptions {
+        time_origin: origin,
+        min_points: 1,
+        sample_extent: extent,
+        ..Default::default()
+    };
+    let need = |b: &Builder<'_>, v: &Option<String>, name: &str| -> Result<String> {
+        v.clone().ok_or_else(|| {
+            b.err(
+                InputKind::MissingKey,
+                &format!("{key}.{name}"),
+                format!("dataset '{}' needs '{name}'", d.name),
+            )
+        })
+    };
+    let value_col = match d.layout {
+        LayoutName::Sensors => {
+            if d.value_column.is_some() {
+                return Err(b.err(
+                    InputKind::BadValue,
+                    &k("value_column"),
+                    "a sensor table names its columns in 'sensors', not in 'value_column'",
+                ));
+            }
+            String::new()
+        }
+        _ => need(b, &d.value_column, "value_column")?,
+    };
+    let mut value_spec = ColumnSpec::new(value_col.clone());
+    if let Some(u) = measured_unit(b, d) {
+        value_spec = value_spec.with_unit(u);
+    }
+    let end_needed = |b: &Builder<'_>| -> Result<End> {
+        d.end.map(end_of).ok_or_else(|| {
+            b.err(
+                InputKind::MissingKey,
+                &format!("{key}.end"),
+                "a flux or cumulative observable needs 'end' (left or right)",
+            )
+        })
+    };
+    let mut request = Request::default();
+    let (mut observed, mut sigma_col, mut lines, mut positions, mut map) = (
+        Vec::new(),
+        None::<Vec<f64>>,
+        Vec::new(),
+        Vec::new(),
+        Vec::new(),
+    );
+    let value_unit;
+    let warnings;
+    let only_value = |b: &Builder<'_>| -> Result<()> {
+        if d.observe != ObserveName::Value {
+            return Err(b.err(
+                InputKind::BadValue,
+                &format!("{key}.observe"),
+                "sensor tables and profiles measure 'value' at positions",
+            ));
+        }
+        Ok(())
+    };
+    match d.layout {
+        LayoutName::TimeSeries => {
+            let mut cols =
+                SeriesColumns::new(need(b, &d.time_column, "time_column")?, value_col.clone());
+            cols.value = value_spec;
+            cols.sigma = d.sigma_column.clone().map(ColumnSpec::new);
+            let loaded = data::read_time_series(&path, &cols, &opts)?;
+            warnings = loaded.warnings;
+            let s = loaded
+                .data
+                .into_iter()
+                .next()
+                .ok_or_else(|| b.err(InputKind::Empty, &k("file"), "no data rows"))?;
+            let obs = match d.observe {
+                ObserveName::Value => {
+                    let p = d.position.as_ref().ok_or_else(|| {
+                        b.err(
+                            InputKind::MissingKey,
+                            &k("position"),
+                            "observing 'value' in a time series needs 'position'",
+                        )
+                    })?;
+                    let x = b
+                        .literal(p, Kind::Length, Check::NonNegative, &k("position"))?
+                        .0;
+                    if let Some((lo, hi)) = extent {
+                        if x < lo - 1e-12 * hi || x > hi * (1.0 + 1e-12) {
+                            return Err(b.err(
+                                InputKind::PositionOutside,
+                                &k("position"),
+                                format!(
+                                    "position {x:e} m is outside the sample ({lo:e} m to {hi:e} m)"
+                                ),
+                            ));
+                        }
+                    }
+                    positions = vec![Some(x); s.time.len()];
+                    Observable::ValueAt(x)
+                }
+                ObserveName::Amount => Observable::Amount,
+                ObserveName::AmountChange => Observable::AmountChange,
+                ObserveName::FractionalUptake => Observable::FractionalUptake,
+                ObserveName::Mean => Observable::Mean,
+                ObserveName::FluxIn => Observable::FluxIn(end_needed(b)?),
+                ObserveName::CumulativeIn => Observable::CumulativeIn(end_needed(b)?),
+                ObserveName::CumulativeOut => Observable::CumulativeOut(end_needed(b)?),
+            };
+            if positions.is_empty() {
+                positions = vec![None; s.time.len()];
+            }
+            map = (0..s.time.len()).map(|t| (0, t)).collect();
+            request.times = s.time;
+            request.observables = vec![obs];
+            observed = s.value;
+            sigma_col = s.sigma;
+            lines = s.line;
+            value_unit = s.value_unit.label().to_string();
+        }
+        LayoutName::Sensors => {
+            only_value(b)?;
+            let list = d.sensors.as_ref().ok_or_else(|| {
+                b.err(
+                    InputKind::MissingKey,
+                    &k("sensors"),
+                    "a sensor table needs 'sensors' (columns and positions)",
+                )
+            })?;
+            let mut specs = Vec::with_capacity(list.len());
+            for (j, s) in list.iter().enumerate() {
+                let x = b
+                    .literal(
+                        &s.position,
+                        Kind::Length,
+                        Check::NonNegative,
+                        &k(&format!("sensors[{j}].position")),
+                    )?
+                    .0;
+                let mut c = ColumnSpec::new(s.column.clone());
+                if let Some(u) = measured_unit(b, d) {
+                    c = c.with_unit(u);
+                }
+                specs.push(SensorSpec {
+                    column: c,
+                    position: Some(x),
+                });
+            }
+            let cols = SensorColumns {
+                time: ColumnSpec::new(need(b, &d.time_column, "time_column")?),
+                sensors: specs,
+            };
+            let loaded = data::read_sensor_table(&path, &cols, &opts)?;
+            warnings = loaded.warnings;
+            let t = loaded.data;
+            if d.sigma_column.is_some() {
+                return Err(b.err(
+                    InputKind::BadValue,
+                    &k("sigma_column"),
+                    "a sensor table takes a constant 'sigma', not a column",
+                ));
+            }
+            for (j, s) in t.sensors.iter().enumerate() {
+                request.observables.push(Observable::ValueAt(s.position));
+                for (kk, v) in s.value.iter().enumerate() {
+                    observed.push(*v);
+                    lines.push(t.line.get(kk).copied().unwrap_or(0));
+                    positions.push(Some(s.position));
+                    map.push((j, kk));
+                }
+            }
+            value_unit = t
+                .sensors
+                .first()
+                .map(|s| s.unit.label().to_string())
+                .unwrap_or_default();
+            request.times = t.time;
+        }
+        LayoutName::Profiles => {
+            only_value(b)?;
+            let time = match (&d.time_column, &d.profile_time) {
+                (Some(c), None) => ProfileTime::Column(ColumnSpec::new(c.clone())),
+                (None, Some(t)) => ProfileTime::Fixed(
+                    b.literal(t, Kind::Time, Check::NonNegative, &k("profile_time"))?
+                        .0,
+                ),
+                (None, None) => {
+                    return Err(b.err(
+                        InputKind::MissingKey,
+                        &k("time_column"),
+                        "profiles need 'time_column' or 'profile_time'",
+                    ))
+                }
+                (Some(_), Some(_)) => {
+                    return Err(b.err(
+                        InputKind::BadValue,
+                        &k("profile_time"),
+                        "give 'time_column' or 'profile_time', not both",
+                    ))
+                }
+            };
+            let cols = ProfileColumns {
+                position: ColumnSpec::new(need(b, &d.position_column, "position_column")?),
+                value: value_spec,
+                sigma: d.sigma_column.clone().map(ColumnSpec::new),
+                time,
+            };
+            let loaded = data::read_profiles(&path, &cols, &opts)?;
+            warnings = loaded.warnings;
+            let mut xs: Vec<f64> = Vec::new();
+            let mut sig = Vec::new();
+            let mut has_sigma = true;
+            for p in &loaded.data.profiles {
+                let kk = request.times.len();
+                request.times.push(p.time);
+                for (n, &x) in p.position.iter().enumerate() {
+                    let o = match xs.iter().position(|&y| y == x) {
+                        Some(o) => o,
+                        None => {
+                            xs.push(x);
+                            xs.len() - 1
+                        }
+                    };
+                    map.push((o, kk));
+                    observed.push(p.value.get(n).copied().unwrap_or(f64::NAN));
+                    lines.push(p.line.get(n).copied().unwrap_or(0));
+                    positions.push(Some(x));
+                    match &p.sigma {
+                        Some(s) => sig.push(s.get(n).copied().unwrap_or(f64::NAN)),
+                        None => has_sigma = false,
+                    }
+                }
+            }
+            if has_sigma && !sig.is_empty() {
+                sigma_col = Some(sig);
+            }
+            value_unit = loaded
+                .data
+                .profiles
+                .first()
+                .map(|p| p.value_unit.label().to_string())
+                .unwrap_or_default();
+            request.observables = xs.into_iter().map(Observable::ValueAt).collect();
+        }
+    }
+    // Positions must be inside the sample at the start values (checked when constant).
+    // Uncertainty and weighting.
+    let n = observed.len();
+    let constant_sigma = match &d.sigma {
+        Some(s) => {
+            let kind = if matches!(d.observe, ObserveName::Value | ObserveName::Mean)
+                && d.value_unit.is_none()
+            {
+                Kind::ValueDifference
+            } else {
+                Kind::Measured
+            };
+            let (number, unit) = match s {
+                Scalar::Number(x) => (*x, d.value_unit.clone()),
+                Scalar::Text(t) => match quantity::split_number(t) {
+                    Some(w) => (w.number, w.unit.or_else(|| d.value_unit.clone())),
+                    None => {
+                        return Err(b.err(
+                            InputKind::BadValue,
+                            &k("sigma"),
+                            format!("'{t}' is not a number with unit"),
+                        ))
+                    }
+                },
+            };
+            let conv = quantity::conversion(kind, unit.as_deref(), &b.value_unit)
+                .map_err(|m| b.err(InputKind::UnknownUnit, &k("sigma"), m))?;
+            let v = conv.scale * number;
+            if !(v.is_finite() && v > 0.0) {
+                return Err(b.err(
+                    InputKind::BadUncertainty,
+                    &k("sigma"),
+                    format!("an uncertainty must be positive, found {v:e} (SI)"),
+                ));
+            }
+            Some(v)
+        }
+        None => None,
+    };
+    let (sigma, weighting) = match (d.weighting, sigma_col, constant_sigma, d.relative_sigma) {
+        (_, Some(_), Some(_), _) => {
+            return Err(b.err(
+                InputKind::BadValue,
+                &k("sigma"),
+                "give 'sigma_column' or 'sigma', not both",
+            ))
+        }
+        (Some(WeightingName::Relative) | None, None, None, Some(f)) => {
+            if !(f.is_finite() && f > 0.0) {
+                return Err(b.err(
+                    InputKind::BadUncertainty,
+                    &k("relative_sigma"),
+                    format!("must be positive, found {f}"),
+                ));
+            }
+            let mut s = Vec::with_capacity(n);
+            for (y, line) in observed.iter().zip(&lines) {
+                let v = f * y.abs();
+                if v <= 0.0 {
+                    return Err(Error::input(InputKind::BadUncertainty, Location::file(&path).with_line(*line), format!("relative weighting of dataset '{}' gives σ = 0 for the value 0; use absolute σ", d.name)));
+                }
+                s.push(v);
+            }
+            (s, Weighting::Relative(f))
+        }
+        (Some(WeightingName::Relative), _, _, None) => {
+            return Err(b.err(
+                InputKind::MissingKey,
+                &k("relative_sigma"),
+                "relative weighting needs 'relative_sigma' (for example 0.01)",
+            ))
+        }
+        (Some(WeightingName::Relative), _, _, Some(_)) => {
+            return Err(b.err(
+                InputKind::BadValue,
+                &k("weighting"),
+                "relative weighting takes 'relative_sigma' only, not 'sigma' or 'sigma_column'",
+            ))
+        }
+        (w, col, c, None) => {
+            let s = match (col, c) {
+                (Some(s), _) => s,
+                (None, Some(c)) => vec![c; n],
+                (None, None) => vec![1.0; n],
+            };
+            let weighting = match w {
+                Some(WeightingName::Absolute) if d.sigma.is_none() && d.sigma_column.is_none() => {
+                    return Err(b.err(
+                        InputKind::MissingKey,
+                        &k("sigma"),
+                        "absolute weighting needs 'sigma' or 'sigma_column'",
+                    ));
+                }
+                Some(WeightingName::Absolute) => Weighting::Absolute,
+                Some(WeightingName::Scaled) => Weighting::Scaled,
+                _ if d.sigma.is_some() || d.sigma_column.is_some() => Weighting::Absolute,
+                _ => Weighting::Scaled,
+            };
+            (s, weighting)
+        }
+        (_, _, _, Some(_)) => {
+            return Err(b.err(
+                InputKind::BadValue,
+                &k("relative_sigma"),
+                "'relative_sigma' goes with weighting = \"relative\" and no other σ",
+            ))
+        }
+    };
+    let scale = match &d.scale {
+        Some(s) => Some(b.num(s, Kind::Measured, Check::Any, &k("scale"))?),
+        None => None,
+    };
+    let offset = match &d.offset {
+        Some(s) => Some(b.num(s, Kind::Measured, Check::Any, &k("offset"))?),
+        None => None,
+    };
+    Ok(Dataset {
+        name: d.name.clone(),
+        file: path,
+        file_as_written: d.file.clone(),
+        key,
+        request,
+        observed,
+        sigma,
+        weighting,
+        lines,
+        positions,
+        map,
+        value_unit,
+        warnings,
+        template,
+        scale,
+        offset,
+        n_params: 0,
+    })
+}

@@ -7,13 +7,16 @@
 //! everywhere inside; units are converted at the edges.
 #![deny(missing_docs)]
 
+pub mod analysis;
 pub mod analytic;
 pub mod data;
 pub mod error;
 pub mod experiment;
 pub mod fit;
 pub mod model;
+pub mod report;
 pub mod shortcuts;
+pub mod simulate;
 pub mod solver;
 pub mod stats;
 pub mod units;

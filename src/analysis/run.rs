@@ -1,0 +1,183 @@
+//! One experiment, fitted: weighting, the fit itself, predictions at the estimate.
+//!
+//! Weighting. A dataset whose σ are absolute standard uncertainties keeps them. Every other
+//! dataset (σ unknown, known up to a factor, or relative) gets a scale s_d estimated from its
+//! own scatter, so that datasets in different units or with different noise do not swamp each
+//! other: fit with s_d = 1, set s_d² = RSS_d / (n_d (1 − p/n)), refit from the optimum, and
+//! repeat until the scales change by less than 1 % (at most four passes). With one dataset the
+//! scale is simply the residual standard deviation and one pass suffices.
+
+use super::problem::ExperimentProblem;
+use crate::error::Result;
+use crate::experiment::{Experiment, Weighting as DataWeighting};
+use crate::fit::bootstrap::BootstrapOptions;
+use crate::fit::engine::{fit, FitOptions, FitResult, Weighting};
+use crate::fit::params::ParamSpec;
+use crate::fit::profile::ProfileOptions;
+use std::sync::Arc;
+
+/// Choices of the user that are not in the experiment file.
+#[derive(Debug, Clone, PartialEq)]
+pub struct AnalysisOptions {
+    /// Confidence level; `None` takes the experiment file's.
+    pub level: Option<f64>,
+    /// Compute profile-likelihood intervals.
+    pub profile: bool,
+    /// Residual-bootstrap replicates (0: none).
+    pub bootstrap: usize,
+    /// Seed of the bootstrap.
+    pub seed: u64,
+    /// With absolute σ, multiply the covariance by the reduced χ² (default: trust σ).
+    pub rescale_absolute: bool,
+}
+
+impl Default for AnalysisOptions {
+    fn default() -> Self {
+        AnalysisOptions {
+            level: None,
+            profile: false,
+            bootstrap: 0,
+            seed: 1,
+            rescale_absolute: false,
+        }
+    }
+}
+
+/// The outcome of fitting one experiment.
+#[derive(Debug, Clone)]
+pub struct Analysis {
+    /// The experiment.
+    pub experiment: Arc<Experiment>,
+    /// The fit: estimates, intervals, covariance, goodness, residual checks, warnings.
+    pub fit: FitResult,
+    /// The residual scale s_d of each dataset (1 for absolute σ).
+    pub dataset_scales: Vec<f64>,
+    /// Predictions at the estimate, per dataset, SI, data order.
+    pub predictions: Vec<Vec<f64>>,
+    /// Weighting passes made.
+    pub passes: usize,
+}
+
+/// The engine's parameter specs for an experiment, starting from `start` (SI).
+pub fn parameter_specs(experiment: &Experiment, start: &[f64]) -> Vec<ParamSpec> {
+    experiment
+        .parameters
+        .iter()
+        .zip(start)
+        .map(|(p, &s)| {
+            let mut spec =
+                ParamSpec::new(p.name.clone(), p.unit.clone(), s).bounds(p.lower, p.upper);
+            if p.log {
+                spec = spec.log();
+            }
+            if !p.free {
+                spec = spec.fixed();
+            }
+            spec
+        })
+        .collect()
+}
+
+/// Fit an experiment.
+pub fn analyse(experiment: Arc<Experiment>, options: &AnalysisOptions) -> Result<Analysis> {
+    let absolute: Vec<bool> = experiment
+        .datasets
+        .iter()
+        .map(|d| d.weighting == DataWeighting::Absolute)
+        .collect();
+    let all_absolute = absolute.iter().all(|&a| a);
+    let mut fit_options = FitOptions {
+        level: options.level.unwrap_or(experiment.fit.interval_level),
+        weighting: if all_absolute {
+            Weighting::Absolute {
+                rescale: options.rescale_absolute,
+            }
+        } else {
+            Weighting::Relative
+        },
+        ..Default::default()
+    };
+    fit_options.lm.max_iterations = experiment.fit.maximum_iterations;
+    fit_options.lm.ftol = experiment.fit.tolerance.min(fit_options.lm.ftol.max(1e-10));
+
+    let mut problem = ExperimentProblem::new(experiment.clone())?;
+    let n_sets = experiment.datasets.len();
+    let needs_scales = !all_absolute && n_sets > 1;
+    let mut start = experiment.start_values();
+    let mut scales = vec![1.0; n_sets];
+    let mut passes = 0;
+    let mut result;
+    loop {
+        passes += 1;
+        problem.set_scales(&scales)?;
+        // Intervals are only wanted from the last pass.
+        let last_pass_possible = !needs_scales || passes >= 4;
+        let mut opts = fit_options.clone();
+        if !last_pass_possible {
+            opts.profile = None;
+            opts.bootstrap = None;
+        } else {
+            set_interval_options(&mut opts, options);
+        }
+        result = fit(problem.clone(), parameter_specs(&experiment, &start), &opts)?;
+        if !needs_scales || passes >= 4 {
+            break;
+        }
+        let n = result.residuals.len() as f64;
+        let p = result.free_names.len() as f64;
+        let mut changed = false;
+        let mut new_scales = scales.clone();
+        for (d, range) in problem_ranges(&problem).into_iter().enumerate() {
+            if absolute[d] {
+                continue;
+            }
+            let nd = range.len() as f64;
+            let rss_d: f64 =
+                result.residuals[range].iter().map(|r| r * r).sum::<f64>() * scales[d] * scales[d];
+            let s = (rss_d / (nd * (1.0 - p / n))).sqrt();
+            if s.is_finite() && s > 0.0 {
+                if (s / scales[d] - 1.0).abs() > 0.01 {
+                    changed = true;
+                }
+                new_scales[d] = s;
+            }
+        }
+        start = result.estimates.clone();
+        scales = new_scales;
+        if !changed {
+            // Scales settled: one more pass with intervals, from the optimum.
+            problem.set_scales(&scales)?;
+            let mut opts = fit_options.clone();
+            set_interval_options(&mut opts, options);
+            result = fit(problem.clone(), parameter_specs(&experiment, &start), &opts)?;
+            passes += 1;
+            break;
+        }
+    }
+    problem.set_scales(&scales)?;
+    let predictions = problem.predictions(&result.estimates)?;
+    Ok(Analysis {
+        experiment,
+        fit: result,
+        dataset_scales: scales,
+        predictions,
+        passes,
+    })
+}
+
+fn set_interval_options(opts: &mut FitOptions, options: &AnalysisOptions) {
+    if options.profile {
+        opts.profile = Some(ProfileOptions::default());
+    }
+    if options.bootstrap > 0 {
+        opts.bootstrap = Some(BootstrapOptions {
+            replicates: options.bootstrap,
+            seed: options.seed,
+        });
+    }
+}
+
+fn problem_ranges(problem: &ExperimentProblem) -> Vec<std::ops::Range<usize>> {
+    use crate::fit::problem::ResidualProblem;
+    problem.datasets().into_iter().map(|d| d.range).collect()
+}

@@ -1,0 +1,131 @@
+//! Command-line arguments: every flag defined once, with its help; the man page and shell
+//! completions are generated from these same definitions.
+
+use clap::{Args, Parser, Subcommand, ValueEnum};
+use std::path::PathBuf;
+
+/// Diffusion coefficients with honest uncertainties, from uptake curves, depth profiles and
+/// heated-rod temperatures.
+#[derive(Debug, Parser)]
+#[command(
+    name = "fickfit",
+    version,
+    about = "Diffusion coefficients with honest uncertainties",
+    long_about = "fickfit fits the 1-D diffusion equation to measured uptake curves, depth \
+profiles or sensor temperatures described in an experiment file, and reports the diffusion \
+coefficient (or thermal diffusivity), boundary values and fluxes with confidence intervals, \
+correlations and residual diagnostics.",
+    after_help = "Exit codes: 0 success; 1 the fit ran but did not converge or failed a check \
+you asked to enforce; 2 bad input or usage.\n\nExample:\n  fickfit fit sample-data/film-uptake/experiment.toml --out film-report"
+)]
+pub struct Cli {
+    /// The command.
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+/// The commands.
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Fit an experiment and write a report folder.
+    #[command(
+        after_help = "Example:\n  fickfit fit sample-data/film-uptake/experiment.toml --out film-report\n  fickfit fit rod.toml --profile --bootstrap 500 --seed 7 --out rod-report"
+    )]
+    Fit(FitArgs),
+    /// Run the forward model at the experiment's parameter values and write a CSV in the
+    /// shape the loader reads (plan experiments, make synthetic data).
+    #[command(
+        after_help = "Example:\n  fickfit simulate film.toml --out film-sim.csv --noise 0.002 --seed 3"
+    )]
+    Simulate(SimulateArgs),
+    /// Validate an experiment and its data, show what would be fitted and the shortcut
+    /// estimates; fit nothing.
+    #[command(after_help = "Example:\n  fickfit check sample-data/film-uptake/experiment.toml")]
+    Check(CheckArgs),
+    /// Write shell completions or the man page.
+    #[command(
+        after_help = "Example:\n  fickfit generate completions bash > fickfit.bash\n  fickfit generate man > fickfit.1"
+    )]
+    Generate(GenerateArgs),
+}
+
+/// Options of `fickfit fit`.
+#[derive(Debug, Args)]
+pub struct FitArgs {
+    /// The experiment file (TOML).
+    #[arg(value_name = "EXPERIMENT")]
+    pub experiment: PathBuf,
+    /// Folder for the report (created; must not exist or be empty unless --force).
+    #[arg(long, short, value_name = "DIR")]
+    pub out: Option<PathBuf>,
+    /// Replace the files of an existing, non-empty report folder.
+    #[arg(long)]
+    pub force: bool,
+    /// Confidence level of every interval, between 0 and 1 (default: the experiment file's,
+    /// else 0.95).
+    #[arg(long, value_name = "LEVEL")]
+    pub level: Option<f64>,
+    /// Also compute profile-likelihood intervals.
+    #[arg(long)]
+    pub profile: bool,
+    /// Residual-bootstrap replicates (0: none).
+    #[arg(long, value_name = "N", default_value_t = 0)]
+    pub bootstrap: usize,
+    /// Seed for the bootstrap and random starts.
+    #[arg(long, value_name = "N", default_value_t = 1)]
+    pub seed: u64,
+    /// Print the report as JSON on standard output instead of the summary table.
+    #[arg(long)]
+    pub json: bool,
+    /// Print nothing but errors.
+    #[arg(long, short)]
+    pub quiet: bool,
+}
+
+/// Options of `fickfit simulate`.
+#[derive(Debug, Args)]
+pub struct SimulateArgs {
+    /// The experiment file (TOML).
+    #[arg(value_name = "EXPERIMENT")]
+    pub experiment: PathBuf,
+    /// The CSV file to write (refused if it exists, unless --force).
+    #[arg(long, short, value_name = "FILE")]
+    pub out: PathBuf,
+    /// Replace an existing output file.
+    #[arg(long)]
+    pub force: bool,
+    /// Standard deviation of Gaussian noise added to every value, in the data's unit.
+    #[arg(long, value_name = "SIGMA", default_value_t = 0.0)]
+    pub noise: f64,
+    /// Seed of the noise.
+    #[arg(long, value_name = "N", default_value_t = 1)]
+    pub seed: u64,
+}
+
+/// Options of `fickfit check`.
+#[derive(Debug, Args)]
+pub struct CheckArgs {
+    /// The experiment file (TOML).
+    #[arg(value_name = "EXPERIMENT")]
+    pub experiment: PathBuf,
+}
+
+/// What `fickfit generate` writes.
+#[derive(Debug, Args)]
+pub struct GenerateArgs {
+    /// Completions for a shell, or the man page.
+    #[arg(value_enum)]
+    pub what: Generated,
+    /// The shell, for completions.
+    #[arg(value_enum, required_if_eq("what", "completions"))]
+    pub shell: Option<clap_complete::Shell>,
+}
+
+/// Generated files.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum Generated {
+    /// Shell completions.
+    Completions,
+    /// A man page (roff) for the whole tool.
+    Man,
+}

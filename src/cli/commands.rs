@@ -1,0 +1,154 @@
+//! The commands: each loads what it needs through the library and prints the result.
+
+use super::args::{CheckArgs, FitArgs, SimulateArgs};
+use super::Outcome;
+use anyhow::{bail, Context};
+use fickfit::analysis::{analyse, AnalysisOptions};
+use fickfit::report::data::Report;
+use fickfit::report::folder::ReportFolder;
+use fickfit::report::{fitted, terminal};
+use std::io::Write;
+use std::path::{Path, PathBuf};
+use std::sync::Arc;
+
+fn load(path: &Path) -> anyhow::Result<(fickfit::experiment::Experiment, Vec<u8>)> {
+    let bytes = std::fs::read(path)
+        .with_context(|| format!("cannot read the experiment file {}", path.display()))?;
+    let experiment = fickfit::experiment::load(path)?;
+    Ok((experiment, bytes))
+}
+
+/// The default report folder: `<experiment file stem>-report` in the current folder.
+fn default_out(experiment: &Path) -> PathBuf {
+    let stem = experiment
+        .file_stem()
+        .map(|s| s.to_string_lossy().into_owned())
+        .unwrap_or_else(|| "fickfit".to_string());
+    PathBuf::from(format!("{stem}-report"))
+}
+
+/// `fickfit fit`.
+pub fn fit(args: &FitArgs) -> anyhow::Result<Outcome> {
+    if let Some(l) = args.level {
+        if !(l > 0.0 && l < 1.0) {
+            bail!("--level must be between 0 and 1 (for example 0.95), found {l}");
+        }
+    }
+    let (experiment, bytes) = load(&args.experiment)?;
+    let out_dir = args
+        .out
+        .clone()
+        .unwrap_or_else(|| default_out(&args.experiment));
+    // Check the folder before the (possibly long) fit, so a refusal comes at once.
+    let folder = ReportFolder::create(&out_dir, args.force)?;
+    let options = AnalysisOptions {
+        level: args.level,
+        profile: args.profile,
+        bootstrap: args.bootstrap,
+        seed: args.seed,
+        ..Default::default()
+    };
+    let analysis = analyse(Arc::new(experiment), &options)?;
+    let report = Report::new(&analysis, &bytes);
+    folder.write_with("report.json", |w| {
+        serde_json::to_writer_pretty(&mut *w, &report).map_err(std::io::Error::other)?;
+        writeln!(w)
+    })?;
+    folder.write_with("fitted.csv", |w| fitted::write_fitted(&analysis, w))?;
+    let mut stdout = std::io::stdout().lock();
+    if args.json {
+        serde_json::to_writer_pretty(&mut stdout, &report)?;
+        writeln!(stdout)?;
+    } else if !args.quiet {
+        terminal::write_summary(&report, &mut stdout)?;
+        writeln!(stdout, "\nreport written to {}", folder.path().display())?;
+    }
+    Ok(if report.fit.converged {
+        Outcome::Success
+    } else {
+        Outcome::FitProblem
+    })
+}
+
+/// `fickfit check`.
+pub fn check(args: &CheckArgs) -> anyhow::Result<Outcome> {
+    let (e, _) = load(&args.experiment)?;
+    let mut out = std::io::stdout().lock();
+    writeln!(out, "experiment {}: valid", args.experiment.display())?;
+    if let Some(t) = &e.title {
+        writeln!(out, "  {t}")?;
+    }
+    writeln!(
+        out,
+        "parameters ({} free of {}):",
+        e.free_count(),
+        e.parameters.len()
+    )?;
+    for p in &e.parameters {
+        let bounds = match (p.lower, p.upper) {
+            (None, None) => String::new(),
+            (lo, hi) => format!(
+                "  bounds [{}, {}]",
+                lo.map_or("−∞".into(), |v| terminal::num(Some(p.to_unit(v)))),
+                hi.map_or("+∞".into(), |v| terminal::num(Some(p.to_unit(v))))
+            ),
+        };
+        writeln!(
+            out,
+            "  {:<20} {} {}  {}{}{}",
+            p.name,
+            terminal::num(Some(p.to_unit(p.start))),
+            p.unit,
+            if p.free { "free" } else { "fixed" },
+            if p.log { ", log scale" } else { "" },
+            bounds
+        )?;
+    }
+    writeln!(out, "datasets ({} points in all):", e.point_count())?;
+    for d in &e.datasets {
+        writeln!(
+            out,
+            "  {:<20} {} points from {} at {} times",
+            d.name,
+            d.len(),
+            d.file_as_written,
+            d.request.times.len()
+        )?;
+        for w in &d.warnings {
+            writeln!(out, "    warning: {}: {}", w.location, w.message)?;
+        }
+    }
+    if e.point_count() <= e.free_count() {
+        bail!(
+            "{} data points for {} free parameters: the fit needs more points than free parameters",
+            e.point_count(),
+            e.free_count()
+        );
+    }
+    Ok(Outcome::Success)
+}
+
+/// `fickfit simulate`.
+pub fn simulate(args: &SimulateArgs) -> anyhow::Result<Outcome> {
+    let (experiment, _) = load(&args.experiment)?;
+    if args.out.exists() && !args.force {
+        bail!(
+            "{} exists; name a new file, or add --force to replace it",
+            args.out.display()
+        );
+    }
+    if !(args.noise.is_finite() && args.noise >= 0.0) {
+        bail!(
+            "--noise must be zero or a positive number, found {}",
+            args.noise
+        );
+    }
+    let table = fickfit::simulate::simulate(
+        &experiment,
+        &experiment.start_values(),
+        args.noise,
+        args.seed,
+    )?;
+    fickfit::report::folder::write_atomic(&args.out, |w| table.write_csv(w))?;
+    Ok(Outcome::Success)
+}

@@ -1,0 +1,317 @@
+//! The report as plain data: what `report.json` holds (documented in docs/report-format.md).
+//!
+//! Built once from an [`Analysis`]; every writer (JSON, CSV, terminal table, HTML) reads this
+//! structure and nothing else. Values are in the user's units (the unit written in the
+//! experiment file), with the SI value beside each estimate for scripts. A number that is not
+//! finite is written as `null`, never as NaN or infinity.
+
+use crate::analysis::Analysis;
+use crate::experiment::Experiment;
+use serde::Serialize;
+use sha2::{Digest, Sha256};
+
+/// Version of the report layout; raised on any incompatible change.
+pub const SCHEMA_VERSION: u32 = 1;
+
+/// `Some(x)` for a finite number, `None` otherwise.
+pub fn finite(x: f64) -> Option<f64> {
+    x.is_finite().then_some(x)
+}
+
+/// The whole report.
+#[derive(Debug, Clone, Serialize)]
+pub struct Report {
+    /// Layout version.
+    pub schema_version: u32,
+    /// fickfit version that wrote it.
+    pub fickfit_version: String,
+    /// The experiment file as given.
+    pub experiment_file: String,
+    /// SHA-256 of the experiment file's bytes, hex.
+    pub experiment_sha256: String,
+    /// Title from the experiment file.
+    pub title: Option<String>,
+    /// Parameters, free and fixed.
+    pub parameters: Vec<ParameterRow>,
+    /// Fit quality and how the search ended.
+    pub fit: FitSummary,
+    /// Correlation matrix of the free parameters.
+    pub correlation: Correlation,
+    /// Per-dataset residual statistics and checks.
+    pub datasets: Vec<DatasetSummary>,
+    /// Warnings in plain words.
+    pub warnings: Vec<String>,
+}
+
+/// One parameter.
+#[derive(Debug, Clone, Serialize)]
+pub struct ParameterRow {
+    /// Name (`D`, `M_inf[sorption]`).
+    pub name: String,
+    /// Unit of the values below.
+    pub unit: String,
+    /// Estimate.
+    pub estimate: Option<f64>,
+    /// Standard error.
+    pub std_error: Option<f64>,
+    /// Lower end of the Student-t interval.
+    pub ci_low: Option<f64>,
+    /// Upper end of the Student-t interval.
+    pub ci_high: Option<f64>,
+    /// Confidence level of every interval.
+    pub ci_level: f64,
+    /// The interval formed in the fit's internal coordinate and mapped back (asymmetric; for
+    /// a log-scale parameter always positive), when it differs from the symmetric one.
+    pub ci_transformed: Option<IntervalRow>,
+    /// True when held at its given value.
+    pub fixed: bool,
+    /// Profile-likelihood interval (null ends: no crossing found), when computed.
+    pub profile: Option<IntervalRow>,
+    /// Bootstrap percentile interval, when computed.
+    pub bootstrap: Option<IntervalRow>,
+    /// Estimate in SI.
+    pub estimate_si: Option<f64>,
+    /// Standard error in SI.
+    pub std_error_si: Option<f64>,
+}
+
+/// An interval in the parameter's unit.
+#[derive(Debug, Clone, Serialize)]
+pub struct IntervalRow {
+    /// Lower end (null when unbounded).
+    pub low: Option<f64>,
+    /// Upper end (null when unbounded).
+    pub high: Option<f64>,
+}
+
+/// Fit quality.
+#[derive(Debug, Clone, Serialize)]
+pub struct FitSummary {
+    /// Data points.
+    pub n_points: usize,
+    /// Free parameters.
+    pub n_free: usize,
+    /// Weighted residual sum of squares.
+    pub rss: Option<f64>,
+    /// √(RSS/n), weighted.
+    pub rmse: Option<f64>,
+    /// Weighted R².
+    pub r2: Option<f64>,
+    /// Akaike information criterion.
+    pub aic: Option<f64>,
+    /// AIC with the small-sample correction.
+    pub aicc: Option<f64>,
+    /// Bayesian information criterion.
+    pub bic: Option<f64>,
+    /// χ² figures when σ are absolute.
+    pub chi_square: Option<ChiSquareRow>,
+    /// True when the search met a convergence criterion.
+    pub converged: bool,
+    /// Levenberg–Marquardt iterations.
+    pub iterations: usize,
+    /// Why the search stopped, in words.
+    pub stop_reason: String,
+    /// Residual evaluations (forward solves per dataset).
+    pub evaluations: usize,
+    /// Weighting of the residuals.
+    pub weighting: String,
+}
+
+/// χ² statistics.
+#[derive(Debug, Clone, Serialize)]
+pub struct ChiSquareRow {
+    /// χ².
+    pub chi2: Option<f64>,
+    /// Degrees of freedom.
+    pub dof: usize,
+    /// χ²/dof.
+    pub reduced: Option<f64>,
+    /// P(χ² ≥ observed).
+    pub p_value: Option<f64>,
+}
+
+/// Correlation matrix with names.
+#[derive(Debug, Clone, Serialize)]
+pub struct Correlation {
+    /// Free-parameter names, the matrix's order.
+    pub names: Vec<String>,
+    /// Entries (null where a parameter is not identifiable).
+    pub matrix: Vec<Vec<Option<f64>>>,
+}
+
+/// One dataset's residuals.
+#[derive(Debug, Clone, Serialize)]
+pub struct DatasetSummary {
+    /// Name.
+    pub name: String,
+    /// Data file as written.
+    pub file: String,
+    /// Points.
+    pub n_points: usize,
+    /// Root-mean-square residual in the data's unit (unweighted).
+    pub rms_residual: Option<f64>,
+    /// Unit of the data.
+    pub unit: String,
+    /// Residual scale used for weighting (1 for absolute σ).
+    pub weight_scale: Option<f64>,
+    /// Runs of one sign.
+    pub runs: usize,
+    /// Expected runs for random signs.
+    pub expected_runs: Option<f64>,
+    /// Two-sided p-value of the runs test.
+    pub runs_p_value: Option<f64>,
+    /// Lag-1 autocorrelation of the residuals.
+    pub lag1_autocorrelation: Option<f64>,
+    /// Durbin–Watson statistic.
+    pub durbin_watson: Option<f64>,
+    /// Verdict in words.
+    pub verdict: String,
+}
+
+/// Convert a user-unit value through the parameter's reporting unit.
+fn in_unit(experiment: &Experiment, k: usize, si: f64) -> Option<f64> {
+    finite(experiment.parameters[k].to_unit(si))
+}
+
+fn diff_in_unit(experiment: &Experiment, k: usize, si: f64) -> Option<f64> {
+    finite(si / experiment.parameters[k].unit_scale)
+}
+
+impl Report {
+    /// Build the report from an analysis and the experiment file's bytes.
+    pub fn new(analysis: &Analysis, experiment_bytes: &[u8]) -> Report {
+        let e = &analysis.experiment;
+        let f = &analysis.fit;
+        let hash = Sha256::digest(experiment_bytes);
+        let parameters = f
+            .parameters
+            .iter()
+            .enumerate()
+            .map(|(k, p)| ParameterRow {
+                name: p.name.clone(),
+                unit: e.parameters[k].unit.clone(),
+                estimate: in_unit(e, k, p.estimate),
+                std_error: p.std_error.and_then(|s| diff_in_unit(e, k, s)),
+                ci_low: p.interval.as_ref().and_then(|i| in_unit(e, k, i.lower)),
+                ci_high: p.interval.as_ref().and_then(|i| in_unit(e, k, i.upper)),
+                ci_level: f.level,
+                ci_transformed: p
+                    .transformed_interval
+                    .as_ref()
+                    .filter(|t| {
+                        p.interval
+                            .as_ref()
+                            .is_none_or(|i| i.lower != t.lower || i.upper != t.upper)
+                    })
+                    .map(|t| IntervalRow {
+                        low: in_unit(e, k, t.lower),
+                        high: in_unit(e, k, t.upper),
+                    }),
+                fixed: !p.free,
+                profile: p.profile.as_ref().map(|pi| IntervalRow {
+                    low: pi.lower.value().and_then(|v| in_unit(e, k, v)),
+                    high: pi.upper.value().and_then(|v| in_unit(e, k, v)),
+                }),
+                bootstrap: p.bootstrap.as_ref().map(|i| IntervalRow {
+                    low: in_unit(e, k, i.lower),
+                    high: in_unit(e, k, i.upper),
+                }),
+                estimate_si: finite(p.estimate),
+                std_error_si: p.std_error.and_then(finite),
+            })
+            .collect();
+        let g = &f.goodness;
+        let fit = FitSummary {
+            n_points: g.n,
+            n_free: g.k,
+            rss: finite(g.rss),
+            rmse: finite(g.rmse),
+            r2: g.r_squared.and_then(finite),
+            aic: finite(g.aic),
+            aicc: finite(g.aicc),
+            bic: finite(g.bic),
+            chi_square: g.chi_square.as_ref().map(|c| ChiSquareRow {
+                chi2: finite(c.chi2),
+                dof: c.dof,
+                reduced: finite(c.reduced),
+                p_value: finite(c.p_value),
+            }),
+            converged: f.stop.converged(),
+            iterations: f.iterations,
+            stop_reason: f.stop_message.clone(),
+            evaluations: f.evaluations,
+            weighting: format!("{:?}", f.weighting),
+        };
+        let correlation = Correlation {
+            names: f.free_names.clone(),
+            matrix: f
+                .covariance
+                .correlation
+                .iter()
+                .map(|row| row.iter().map(|v| v.and_then(finite)).collect())
+                .collect(),
+        };
+        let datasets = e
+            .datasets
+            .iter()
+            .enumerate()
+            .map(|(d, ds)| {
+                let pred = &analysis.predictions[d];
+                let n = ds.len().max(1) as f64;
+                let rms = (ds
+                    .observed
+                    .iter()
+                    .zip(pred)
+                    .map(|(y, p)| (y - p).powi(2))
+                    .sum::<f64>()
+                    / n)
+                    .sqrt();
+                let checks = f.residual_checks.iter().find(|c| c.dataset == ds.name);
+                DatasetSummary {
+                    name: ds.name.clone(),
+                    file: ds.file_as_written.clone(),
+                    n_points: ds.len(),
+                    rms_residual: finite(rms),
+                    unit: "SI".to_string(),
+                    weight_scale: finite(analysis.dataset_scales[d]),
+                    runs: checks.map_or(0, |c| c.runs),
+                    expected_runs: checks.and_then(|c| finite(c.expected_runs)),
+                    runs_p_value: checks.and_then(|c| finite(c.runs_p)),
+                    lag1_autocorrelation: checks.and_then(|c| finite(c.lag1_autocorrelation)),
+                    durbin_watson: checks.and_then(|c| finite(c.durbin_watson)),
+                    verdict: checks.map_or_else(
+                        || "not checked".to_string(),
+                        |c| {
+                            let prefix = format!("{}: ", ds.name);
+                            c.message
+                                .strip_prefix(&prefix)
+                                .unwrap_or(&c.message)
+                                .to_string()
+                        },
+                    ),
+                }
+            })
+            .collect();
+        let mut warnings: Vec<String> = f.warnings.iter().map(|w| w.message.clone()).collect();
+        for ds in &e.datasets {
+            for w in &ds.warnings {
+                warnings.push(format!("{}: {}", w.location, w.message));
+            }
+        }
+        if !f.stop.converged() {
+            warnings.insert(0, format!("The fit did not converge: {}", f.stop_message));
+        }
+        Report {
+            schema_version: SCHEMA_VERSION,
+            fickfit_version: env!("CARGO_PKG_VERSION").to_string(),
+            experiment_file: e.file.display().to_string(),
+            experiment_sha256: hash.iter().map(|b| format!("{b:02x}")).collect(),
+            title: e.title.clone(),
+            parameters,
+            fit,
+            correlation,
+            datasets,
+            warnings,
+        }
+    }
+}

@@ -1,0 +1,124 @@
+//! The summary table printed to the terminal after a fit.
+
+use super::data::Report;
+use std::io::{self, Write};
+
+/// A number in a fixed, readable format (significant digits, exponent when needed).
+pub fn num(x: Option<f64>) -> String {
+    match x {
+        None => "–".to_string(),
+        Some(0.0) => "0".to_string(),
+        Some(v) if (1e-3..1e5).contains(&v.abs()) => format!("{v:.5}"),
+        Some(v) => format!("{v:.4e}"),
+    }
+}
+
+/// Write the summary: parameters, fit quality, residual verdicts, warnings.
+pub fn write_summary(report: &Report, out: &mut dyn Write) -> io::Result<()> {
+    if let Some(t) = &report.title {
+        writeln!(out, "{t}")?;
+    }
+    let level = report.parameters.first().map_or(0.95, |p| p.ci_level) * 100.0;
+    writeln!(
+        out,
+        "{:<22} {:>13} {:>12} {:>27}  unit",
+        "parameter",
+        "estimate",
+        "std. error",
+        format!("{level:.0} % interval"),
+    )?;
+    for p in &report.parameters {
+        // For a parameter fitted on a log scale the interval formed there is the honest one
+        // (asymmetric, positive); the symmetric one stays in report.json.
+        let interval = if p.fixed {
+            "(fixed)".to_string()
+        } else if let Some(t) = &p.ci_transformed {
+            format!("[{}, {}]*", num(t.low), num(t.high))
+        } else {
+            format!("[{}, {}]", num(p.ci_low), num(p.ci_high))
+        };
+        writeln!(
+            out,
+            "{:<22} {:>13} {:>12} {:>27}  {}",
+            p.name,
+            num(p.estimate),
+            if p.fixed {
+                String::new()
+            } else {
+                num(p.std_error)
+            },
+            interval,
+            p.unit
+        )?;
+        if let Some(pr) = &p.profile {
+            writeln!(
+                out,
+                "{:<22} {:>13} {:>12} {:>27}",
+                "",
+                "",
+                "profile",
+                format!("[{}, {}]", num(pr.low), num(pr.high))
+            )?;
+        }
+        if let Some(b) = &p.bootstrap {
+            writeln!(
+                out,
+                "{:<22} {:>13} {:>12} {:>27}",
+                "",
+                "",
+                "bootstrap",
+                format!("[{}, {}]", num(b.low), num(b.high))
+            )?;
+        }
+    }
+    if report
+        .parameters
+        .iter()
+        .any(|p| !p.fixed && p.ci_transformed.is_some())
+    {
+        writeln!(
+            out,
+            "* interval formed on the parameter's fitted (log or bounded) scale"
+        )?;
+    }
+    let f = &report.fit;
+    writeln!(out)?;
+    writeln!(
+        out,
+        "fit: {} points, {} free parameters, RMSE (weighted) {}, R² {}, AICc {}",
+        f.n_points,
+        f.n_free,
+        num(f.rmse),
+        num(f.r2),
+        num(f.aicc)
+    )?;
+    if let Some(c) = &f.chi_square {
+        writeln!(
+            out,
+            "     χ² = {} on {} degrees of freedom (reduced {}, p = {})",
+            num(c.chi2),
+            c.dof,
+            num(c.reduced),
+            num(c.p_value)
+        )?;
+    }
+    writeln!(
+        out,
+        "     {} after {} iterations ({} model evaluations)",
+        f.stop_reason, f.iterations, f.evaluations
+    )?;
+    for d in &report.datasets {
+        writeln!(
+            out,
+            "dataset {} ({} points): {}",
+            d.name, d.n_points, d.verdict
+        )?;
+    }
+    if !report.warnings.is_empty() {
+        writeln!(out)?;
+        for w in &report.warnings {
+            writeln!(out, "warning: {w}")?;
+        }
+    }
+    Ok(())
+}

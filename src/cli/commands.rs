@@ -128,27 +128,48 @@ pub fn check(args: &CheckArgs) -> anyhow::Result<Outcome> {
     Ok(Outcome::Success)
 }
 
-/// `fickfit simulate`.
+/// `fickfit simulate`: a copy of each dataset's data file with the measured cells replaced by
+/// the model at the experiment's start values (plus seeded noise). With one dataset the copy
+/// is written to `--out`; with several, to `<stem>-<dataset>.<ext>` beside it.
 pub fn simulate(args: &SimulateArgs) -> anyhow::Result<Outcome> {
-    let (experiment, _) = load(&args.experiment)?;
-    if args.out.exists() && !args.force {
-        bail!(
-            "{} exists; name a new file, or add --force to replace it",
-            args.out.display()
-        );
-    }
+    use fickfit::experiment::schema::LayoutName;
+    let (experiment, bytes) = load(&args.experiment)?;
     if !(args.noise.is_finite() && args.noise >= 0.0) {
-        bail!(
-            "--noise must be zero or a positive number, found {}",
-            args.noise
-        );
+        bail!("--noise must be zero or a positive number, found {}", args.noise);
     }
-    let table = fickfit::simulate::simulate(
-        &experiment,
-        &experiment.start_values(),
-        args.noise,
-        args.seed,
-    )?;
-    fickfit::report::folder::write_atomic(&args.out, |w| table.write_csv(w))?;
+    let text = String::from_utf8_lossy(&bytes);
+    let written = fickfit::experiment::parse_str(&text, &args.experiment)?;
+    let n = experiment.datasets.len();
+    let mut targets = Vec::with_capacity(n);
+    for ds in &experiment.datasets {
+        let path = if n == 1 {
+            args.out.clone()
+        } else {
+            let stem = args.out.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_default();
+            let ext = args.out.extension().map(|s| s.to_string_lossy().into_owned()).unwrap_or_else(|| "csv".into());
+            args.out.with_file_name(format!("{stem}-{}.{ext}", ds.name))
+        };
+        if path.exists() && !args.force {
+            bail!("{} exists; name a new file, or add --force to replace it", path.display());
+        }
+        targets.push(path);
+    }
+    let params = experiment.start_values();
+    for (d, (spec, ds)) in written.datasets.iter().zip(&experiment.datasets).enumerate() {
+        let columns: Vec<String> = match spec.layout {
+            LayoutName::Sensors => {
+                let sensors = spec.sensors.as_deref().unwrap_or_default();
+                ds.map
+                    .iter()
+                    .map(|&(o, _)| sensors.get(o).map(|s| s.column.clone()).unwrap_or_default())
+                    .collect()
+            }
+            _ => vec![spec.value_column.clone().unwrap_or_default(); ds.len()],
+        };
+        let seed = args.seed.wrapping_add(d as u64);
+        let out = fickfit::simulate::rewrite_data_file(&experiment, d, &columns, &params, args.noise, seed)?;
+        fickfit::report::folder::write_atomic(&targets[d], |w| w.write_all(out.as_bytes()))?;
+        eprintln!("wrote {} ({} simulated values)", targets[d].display(), ds.len());
+    }
     Ok(Outcome::Success)
 }

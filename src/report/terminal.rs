@@ -8,7 +8,11 @@ pub fn num(x: Option<f64>) -> String {
     match x {
         None => "–".to_string(),
         Some(0.0) => "0".to_string(),
-        Some(v) if (1e-3..1e5).contains(&v.abs()) => format!("{v:.5}"),
+        Some(v) if (1e-3..1e5).contains(&v.abs()) => {
+            // Five significant digits.
+            let decimals = (4 - v.abs().log10().floor() as i32).max(0) as usize;
+            format!("{v:.decimals$}")
+        }
         Some(v) => format!("{v:.4e}"),
     }
 }

@@ -107,7 +107,10 @@ pub fn rewrite_data_file(
 ) -> Result<String> {
     use crate::error::{Error, InputKind, Location};
     let ds = &experiment.datasets[d];
-    let text = std::fs::read_to_string(&ds.file).map_err(|source| Error::Io { path: ds.file.clone(), source })?;
+    let text = std::fs::read_to_string(&ds.file).map_err(|source| Error::Io {
+        path: ds.file.clone(),
+        source,
+    })?;
     let mut lines: Vec<String> = text.lines().map(str::to_string).collect();
     let header_idx = lines
         .iter()
@@ -146,16 +149,20 @@ pub fn rewrite_data_file(
     let normal = Normal::new(0.0, noise.max(0.0))
         .map_err(|e| crate::Error::setting("noise", e.to_string()))?;
     for (i, v) in predicted.iter().enumerate() {
-        let name = value_columns.get(i).ok_or_else(|| {
-            Error::Internal("a simulated point has no column".into())
-        })?;
+        let name = value_columns
+            .get(i)
+            .ok_or_else(|| Error::Internal("a simulated point has no column".into()))?;
         let (col, unit) = find(name)?;
         let line = ds.lines[i] as usize;
         let row = lines.get_mut(line.wrapping_sub(1)).ok_or_else(|| {
             Error::Internal(format!("line {line} is not in {}", ds.file.display()))
         })?;
         let mut parts: Vec<String> = row.split(delim).map(str::to_string).collect();
-        let e = if noise > 0.0 { normal.sample(&mut rng) } else { 0.0 };
+        let e = if noise > 0.0 {
+            normal.sample(&mut rng)
+        } else {
+            0.0
+        };
         let value = unit.from_si(*v) + e;
         let mut cell = format!("{value:.8e}");
         if delim == ';' && parts.get(col).is_some_and(|c| c.contains(',')) {

@@ -135,7 +135,10 @@ pub fn simulate(args: &SimulateArgs) -> anyhow::Result<Outcome> {
     use fickfit::experiment::schema::LayoutName;
     let (experiment, bytes) = load(&args.experiment)?;
     if !(args.noise.is_finite() && args.noise >= 0.0) {
-        bail!("--noise must be zero or a positive number, found {}", args.noise);
+        bail!(
+            "--noise must be zero or a positive number, found {}",
+            args.noise
+        );
     }
     let text = String::from_utf8_lossy(&bytes);
     let written = fickfit::experiment::parse_str(&text, &args.experiment)?;
@@ -145,17 +148,33 @@ pub fn simulate(args: &SimulateArgs) -> anyhow::Result<Outcome> {
         let path = if n == 1 {
             args.out.clone()
         } else {
-            let stem = args.out.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_default();
-            let ext = args.out.extension().map(|s| s.to_string_lossy().into_owned()).unwrap_or_else(|| "csv".into());
+            let stem = args
+                .out
+                .file_stem()
+                .map(|s| s.to_string_lossy().into_owned())
+                .unwrap_or_default();
+            let ext = args
+                .out
+                .extension()
+                .map(|s| s.to_string_lossy().into_owned())
+                .unwrap_or_else(|| "csv".into());
             args.out.with_file_name(format!("{stem}-{}.{ext}", ds.name))
         };
         if path.exists() && !args.force {
-            bail!("{} exists; name a new file, or add --force to replace it", path.display());
+            bail!(
+                "{} exists; name a new file, or add --force to replace it",
+                path.display()
+            );
         }
         targets.push(path);
     }
     let params = experiment.start_values();
-    for (d, (spec, ds)) in written.datasets.iter().zip(&experiment.datasets).enumerate() {
+    for (d, (spec, ds)) in written
+        .datasets
+        .iter()
+        .zip(&experiment.datasets)
+        .enumerate()
+    {
         let columns: Vec<String> = match spec.layout {
             LayoutName::Sensors => {
                 let sensors = spec.sensors.as_deref().unwrap_or_default();
@@ -167,9 +186,20 @@ pub fn simulate(args: &SimulateArgs) -> anyhow::Result<Outcome> {
             _ => vec![spec.value_column.clone().unwrap_or_default(); ds.len()],
         };
         let seed = args.seed.wrapping_add(d as u64);
-        let out = fickfit::simulate::rewrite_data_file(&experiment, d, &columns, &params, args.noise, seed)?;
+        let out = fickfit::simulate::rewrite_data_file(
+            &experiment,
+            d,
+            &columns,
+            &params,
+            args.noise,
+            seed,
+        )?;
         fickfit::report::folder::write_atomic(&targets[d], |w| w.write_all(out.as_bytes()))?;
-        eprintln!("wrote {} ({} simulated values)", targets[d].display(), ds.len());
+        eprintln!(
+            "wrote {} ({} simulated values)",
+            targets[d].display(),
+            ds.len()
+        );
     }
     Ok(Outcome::Success)
 }

@@ -732,3 +732,36 @@ fn misspelt_parameter_name_gets_a_suggestion() {
     );
     assert!(e.to_string().contains("did you mean 'M_inf'"), "{e}");
 }
+
+/// One file holding two runs, told apart by a run column: each dataset takes its own rows.
+#[test]
+fn run_column_selects_one_run_of_a_shared_file() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(
+        dir.path().join("both.csv"),
+        "run,time [min],mass [mg]\nA,0,1.0\nA,10,1.5\nA,20,1.8\nB,0,2.0\nB,5,2.2\nB,10,2.3\nB,15,2.35\n",
+    )
+    .unwrap();
+    let dataset = |name: &str, run: &str| {
+        format!(
+            "[[datasets]]\nname = \"{name}\"\nfile = \"both.csv\"\nlayout = \"time_series\"\n\
+             observe = \"amount_change\"\ntime_column = \"time\"\nvalue_column = \"mass\"\n\
+             run_column = \"run\"\nrun = \"{run}\"\n"
+        )
+    };
+    let head = "[sample]\nshape = \"slab\"\nvalue_unit = \"mg/cm3\"\nthickness = \"100 um\"\n\
+                diffusivity = \"1e-12 m2/s\"\n[ends.left]\nvalue = 1.0\n[ends.right]\nsealed = true\n\
+                [initial]\nvalue = 0.0\n";
+    let text = format!("{head}{}{}", dataset("first", "A"), dataset("second", "B"));
+    let e = fickfit::experiment::from_str(&text, std::path::Path::new("runs.toml"), dir.path())
+        .unwrap();
+    assert_eq!(e.datasets[0].len(), 3);
+    assert_eq!(e.datasets[1].len(), 4);
+    assert_eq!(e.datasets[1].lines, vec![5, 6, 7, 8]);
+    // A run label that is not in the file names the ones that are.
+    let bad = format!("{head}{}", dataset("third", "C"));
+    let err = fickfit::experiment::from_str(&bad, std::path::Path::new("runs.toml"), dir.path())
+        .unwrap_err()
+        .to_string();
+    assert!(err.contains("'C'") && err.contains("A, B"), "{err}");
+}

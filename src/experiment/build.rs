@@ -1518,19 +1518,52 @@ fn dataset(
         }
         Ok(())
     };
+    if d.layout != LayoutName::TimeSeries && (d.run_column.is_some() || d.run.is_some()) {
+        return Err(b.err(
+            InputKind::BadValue,
+            &k("run_column"),
+            "'run_column' and 'run' select one run of a time-series file; sensor tables and profiles take one run per file",
+        ));
+    }
     match d.layout {
         LayoutName::TimeSeries => {
             let mut cols =
                 SeriesColumns::new(need(b, &d.time_column, "time_column")?, value_col.clone());
             cols.value = value_spec;
             cols.sigma = d.sigma_column.clone().map(ColumnSpec::new);
+            cols.run = d.run_column.clone();
+            if cols.run.is_some() != d.run.is_some() {
+                return Err(b.err(
+                    InputKind::MissingKey,
+                    &k(if d.run.is_some() { "run_column" } else { "run" }),
+                    "a file with several runs needs both 'run_column' (its header) and 'run' (the label of this dataset's run)",
+                ));
+            }
             let loaded = data::read_time_series(&path, &cols, &opts)?;
             warnings = loaded.warnings;
-            let s = loaded
-                .data
-                .into_iter()
-                .next()
-                .ok_or_else(|| b.err(InputKind::Empty, &k("file"), "no data rows"))?;
+            let s = match &d.run {
+                None => loaded.data.into_iter().next(),
+                Some(label) => {
+                    let found: Vec<String> =
+                        loaded.data.iter().filter_map(|s| s.run.clone()).collect();
+                    let pick = loaded
+                        .data
+                        .into_iter()
+                        .find(|s| s.run.as_deref() == Some(label));
+                    if pick.is_none() {
+                        return Err(b.err(
+                            InputKind::BadValue,
+                            &k("run"),
+                            format!(
+                                "no run '{label}' in the file; its runs are: {}",
+                                found.join(", ")
+                            ),
+                        ));
+                    }
+                    pick
+                }
+            }
+            .ok_or_else(|| b.err(InputKind::Empty, &k("file"), "no data rows"))?;
             let obs = match d.observe {
                 ObserveName::Value => {
                     let p = d.position.as_ref().ok_or_else(|| {

@@ -449,6 +449,10 @@ pub struct DatasetSpec {
     pub value_unit: Option<String>,
     /// Uncertainty column.
     pub sigma_column: Option<String>,
+    /// Run/series column of a time-series file that holds several runs.
+    pub run_column: Option<String>,
+    /// Which run of the file (the label in `run_column`) this dataset is.
+    pub run: Option<String>,
     /// Constant uncertainty.
     pub sigma: Option<Scalar>,
     /// Relative uncertainty for `weighting = "relative"`.

@@ -7,6 +7,7 @@
 
 pub mod error;
 pub mod model;
+pub mod report;
 pub mod solver;
 
 pub use error::{Error, InputKind, Location, Result};

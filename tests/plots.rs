@@ -447,7 +447,7 @@ fn qq_figure_renders_with_reference_line() {
     let line = fig
         .series
         .iter()
-        .find(|s| s.kind == SeriesKind::Line)
+        .find(|s| s.kind == SeriesKind::Reference)
         .expect("reference line");
     assert_eq!(line.x, line.y, "reference line is y = x");
     let out = to_svg(&fig).expect("renders");

@@ -38,6 +38,7 @@
 mod chart;
 mod figures;
 mod heatmap;
+mod raster_text;
 
 use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicU64, Ordering};
@@ -72,6 +73,9 @@ pub enum SeriesKind {
     /// A polyline with a marker at every point (for example a profile computed at a few
     /// parameter values).
     LineAndMarkers,
+    /// A thin dark-grey dashed reference line through the points (such as y = x in a Q–Q
+    /// plot); it takes no colour, marker or dash pattern from the series cycle.
+    Reference,
 }
 
 /// One set of points of a figure.
@@ -172,6 +176,8 @@ pub enum LegendPosition {
     UpperRight,
     /// Top left corner.
     UpperLeft,
+    /// Top centre (suits a profile-likelihood curve, high at both ends).
+    UpperMiddle,
     /// Bottom right corner (suits rising uptake curves).
     LowerRight,
     /// Bottom left corner.
@@ -319,7 +325,10 @@ pub fn to_png(figure: &Figure, path: impl AsRef<Path>) -> Result<Notes> {
     ensure_fonts()?;
     let prepared = chart::prepare(figure);
     write_png_atomically(path.as_ref(), |tmp| {
-        let backend = plotters::backend::BitMapBackend::new(tmp, (figure.width, figure.height));
+        let backend = raster_text::BaselineText(plotters::backend::BitMapBackend::new(
+            tmp,
+            (figure.width, figure.height),
+        ));
         chart::draw(backend, figure, &prepared).map_err(drawing_error)
     })?;
     Ok(prepared.notes)

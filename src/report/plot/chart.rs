@@ -360,7 +360,7 @@ where
                 line_count += 1;
                 Some((colour, dash))
             }
-            SeriesKind::Markers => None,
+            SeriesKind::Markers | SeriesKind::Reference => None,
         };
         let marker_style = match s.kind {
             SeriesKind::Markers | SeriesKind::LineAndMarkers => {
@@ -372,8 +372,16 @@ where
                 marker_count += 1;
                 Some((colour, shape))
             }
-            SeriesKind::Line => None,
+            SeriesKind::Line | SeriesKind::Reference => None,
         };
+        let reference = s.kind == SeriesKind::Reference;
+        if reference && pts.len() >= 2 {
+            chart.plotting_area().draw(&line_element::<'a, DB, _>(
+                pts.clone(),
+                Some((8, 5)),
+                GUIDE_GREY.stroke_width(1),
+            ))?;
+        }
         if let Some((colour, dash)) = line_style {
             if pts.len() >= 2 {
                 chart.plotting_area().draw(&line_element::<'a, DB, _>(
@@ -395,6 +403,13 @@ where
             any_label = true;
             anno.label(s.label.as_str()).legend(move |(x, y)| {
                 let mut parts: Vec<DynElement<'a, DB, (i32, i32)>> = Vec::new();
+                if reference {
+                    parts.push(line_element::<'a, DB, _>(
+                        vec![(x, y), (x + 24, y)],
+                        Some((8, 5)),
+                        GUIDE_GREY.stroke_width(1),
+                    ));
+                }
                 if let Some((colour, dash)) = line_style {
                     parts.push(line_element::<'a, DB, _>(
                         vec![(x, y), (x + 24, y)],
@@ -416,6 +431,7 @@ where
             .position(match fig.legend {
                 LegendPosition::UpperRight => SeriesLabelPosition::UpperRight,
                 LegendPosition::UpperLeft => SeriesLabelPosition::UpperLeft,
+                LegendPosition::UpperMiddle => SeriesLabelPosition::UpperMiddle,
                 LegendPosition::LowerRight => SeriesLabelPosition::LowerRight,
                 LegendPosition::LowerLeft => SeriesLabelPosition::LowerLeft,
             })

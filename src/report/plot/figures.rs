@@ -92,8 +92,12 @@ pub fn qq_figure(std_residuals: &[f64]) -> Figure {
         }
         _ => Vec::new(),
     };
-    fig.series
-        .push(Series::line("reference y = x", ends.clone(), ends));
+    fig.series.push(Series {
+        label: "reference y = x".to_string(),
+        x: ends.clone(),
+        y: ends,
+        kind: SeriesKind::Reference,
+    });
     fig.series.push(Series::markers(
         format!("residuals (n = {})", qq.sample.len()),
         qq.theoretical,
@@ -135,7 +139,7 @@ pub fn profile_figure(curve: &ProfileCurve) -> Figure {
         curve.parameter.clone(),
         curve.objective.clone(),
     )
-    .with_legend(LegendPosition::UpperLeft);
+    .with_legend(LegendPosition::UpperMiddle);
     fig.series.push(Series {
         label: "profile".to_string(),
         x: curve.values.clone(),

@@ -65,7 +65,7 @@ pub fn correlation_png<S: AsRef<str>>(
     let notes = check(names, matrix)?;
     let names: Vec<&str> = names.iter().map(AsRef::as_ref).collect();
     write_png_atomically(path.as_ref(), |tmp| {
-        let backend = BitMapBackend::new(tmp, (WIDTH, HEIGHT));
+        let backend = super::raster_text::BaselineText(BitMapBackend::new(tmp, (WIDTH, HEIGHT)));
         draw(backend, &names, matrix, &notes).map_err(drawing_error)
     })?;
     Ok(notes)
@@ -87,8 +87,10 @@ fn check<S: AsRef<str>>(names: &[S], matrix: &[Vec<f64>]) -> Result<Notes> {
             row.len()
         )));
     }
-    let mut notes = Notes::default();
-    notes.non_finite = matrix.iter().flatten().filter(|v| !v.is_finite()).count();
+    let mut notes = Notes {
+        non_finite: matrix.iter().flatten().filter(|v| !v.is_finite()).count(),
+        ..Notes::default()
+    };
     if notes.non_finite > 0 {
         notes.messages.push(format!(
             "{} non-finite correlation{} shown as n/a",
@@ -168,7 +170,9 @@ fn draw<DB: DrawingBackend>(
         draw_footnote(&lower, &notes.messages)?;
         upper
     };
-    let area = area.titled(TITLE, (FONT, 20).into_font().style(FontStyle::Bold))?;
+    let area = area
+        .margin(8, 0, 0, 0)
+        .titled(TITLE, (FONT, 20).into_font().style(FontStyle::Bold))?;
     let (w, h) = area.dim_in_pixel();
     let n = names.len();
     let label_font = (FONT, 14).into_font();
@@ -314,12 +318,6 @@ fn draw<DB: DrawingBackend>(
     Ok(())
 }
 
-/// Used by the module's tests only: the cell text.
-#[cfg(test)]
-pub(crate) fn cell_text_for_tests(r: f64) -> String {
-    cell_text(r)
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -338,7 +336,7 @@ mod tests {
         assert_eq!(text_colour_on(diverging_colour(-1.0)), WHITE);
         assert_eq!(text_colour_on(diverging_colour(1.0)), WHITE);
         assert_eq!(text_colour_on(diverging_colour(0.0)), BLACK);
-        assert_eq!(cell_text_for_tests(-0.001), "0.00");
-        assert_eq!(cell_text_for_tests(-0.936), "-0.94");
+        assert_eq!(cell_text(-0.001), "0.00");
+        assert_eq!(cell_text(-0.936), "-0.94");
     }
 }

@@ -683,3 +683,33 @@ fn gallery_for_inspection() {
     ];
     correlation_png(&long, &m4, dir.join("correlation_long.png")).expect("renders");
 }
+
+#[test]
+fn extreme_magnitudes_and_tiny_sizes_do_not_fail() {
+    let figs = [
+        Figure::new("tiny numbers", "x [m]", "y [m]").with_series(Series::markers(
+            "a",
+            vec![1e-300, 2e-300, 3e-300],
+            vec![1e299, 1.2e299, 1.5e299],
+        )),
+        Figure::new("huge span", "x [m]", "y [m]")
+            .with_log_y(true)
+            .with_series(Series::line("b", vec![0.0, 1.0], vec![1e-300, 1e300])),
+        Figure::new("near max", "x [m]", "y [m]").with_series(Series::markers(
+            "c",
+            vec![-1.7e308, 1.7e308],
+            vec![f64::MAX, f64::MAX],
+        )),
+        uptake_figure().with_size(60, 40),
+        uptake_figure().with_size(1, 1),
+    ];
+    // What is left out, and why (more than 290 decades on a log axis; magnitude > 1e300).
+    let expected_out_of_range = [0, 1, 2, 0, 0];
+    for (fig, expected) in figs.iter().zip(expected_out_of_range) {
+        let out = to_svg(fig).unwrap_or_else(|e| panic!("{}: {e}", fig.title));
+        assert_eq!(out.notes.out_of_range, expected, "{}", fig.title);
+        svg_texts(&out.svg);
+        let dir = tempfile::tempdir().expect("dir");
+        to_png(fig, dir.path().join("x.png")).unwrap_or_else(|e| panic!("{}: {e}", fig.title));
+    }
+}

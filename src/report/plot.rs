@@ -10,7 +10,8 @@
 //! heat map.
 //!
 //! Robustness: non-finite values are left out and counted; on a logarithmic axis, values
-//! ≤ 0 are left out and counted; `x` and `y` of unequal length are paired up to the shorter
+//! ≤ 0 are left out and counted; magnitudes above 10³⁰⁰ (and, on a logarithmic axis, values
+//! more than 290 decades below the largest) are left out and counted; `x` and `y` of unequal length are paired up to the shorter
 //! one and the rest counted. Every omission is returned in [`Notes`] and printed as a
 //! footnote in the figure itself, so a reader of the printed page sees it too. A figure with
 //! no point left draws an empty frame that says so. Nothing here panics on odd data.
@@ -272,6 +273,10 @@ pub struct Notes {
     pub non_positive_on_log: usize,
     /// Points left out because `x` and `y` of a series have different lengths.
     pub unpaired: usize,
+    /// Points (and reference lines) left out because a coordinate's magnitude exceeds
+    /// 10³⁰⁰, or because on a logarithmic axis y lies more than 290 decades below the
+    /// largest y (the axis could not be drawn otherwise).
+    pub out_of_range: usize,
     /// True when nothing was left to draw, so the frame is empty.
     pub no_points: bool,
     /// The same in words, one entry per cause and series, plus the figure's own notes;

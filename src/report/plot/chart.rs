@@ -27,6 +27,10 @@ pub(crate) const PALETTE: [RGBColor; 7] = [
 const GUIDE_GREY: RGBColor = RGBColor(0x44, 0x44, 0x44);
 /// Colour of the grid.
 const GRID_GREY: RGBColor = RGBColor(0xDD, 0xDD, 0xDD);
+/// Largest magnitude of a coordinate that is drawn; beyond it, spans overflow.
+const MAX_MAGNITUDE: f64 = 1e300;
+/// Most decades a logarithmic axis spans.
+const MAX_LOG_DECADES: i32 = 290;
 /// Height of the footnote strip in pixels.
 const FOOTNOTE_HEIGHT: u32 = 22;
 
@@ -88,17 +92,32 @@ pub(crate) fn prepare(fig: &Figure) -> Prepared {
     let mut points = Vec::with_capacity(fig.series.len());
     let mut xs = Bounds::default();
     let mut ys = Bounds::default();
+    // On a log axis, the smallest y shown: the plotting library's tick search overflows
+    // when the axis spans more than about 308 decades.
+    let log_floor = if fig.log_y {
+        fig.series
+            .iter()
+            .flat_map(|s| s.y.iter().copied())
+            .filter(|y| y.is_finite() && *y > 0.0 && *y <= MAX_MAGNITUDE)
+            .fold(None, |m: Option<f64>, y| Some(m.map_or(y, |m| m.max(y))))
+            .map_or(0.0, |max| max * 10f64.powi(-MAX_LOG_DECADES))
+    } else {
+        0.0
+    };
     for (index, s) in fig.series.iter().enumerate() {
         let name = series_name(&s.label, index);
         let unpaired = s.x.len().abs_diff(s.y.len());
         let mut non_finite = 0;
         let mut non_positive = 0;
+        let mut out_of_range = 0;
         let mut kept = Vec::with_capacity(s.x.len().min(s.y.len()));
         for (&x, &y) in s.x.iter().zip(&s.y) {
             if !x.is_finite() || !y.is_finite() {
                 non_finite += 1;
             } else if fig.log_y && y <= 0.0 {
                 non_positive += 1;
+            } else if x.abs() > MAX_MAGNITUDE || y.abs() > MAX_MAGNITUDE || y < log_floor {
+                out_of_range += 1;
             } else {
                 xs.add(x);
                 ys.add(y);
@@ -123,6 +142,14 @@ pub(crate) fn prepare(fig: &Figure) -> Prepared {
                 plural(unpaired, "value", "values")
             ));
         }
+        if out_of_range > 0 {
+            messages.push(format!(
+                "{name}: {out_of_range} {} beyond the plotting range left out (magnitude \
+                 above 1e300, or more than {MAX_LOG_DECADES} decades below the largest y)",
+                plural(out_of_range, "point", "points")
+            ));
+        }
+        notes.out_of_range += out_of_range;
         notes.non_finite += non_finite;
         notes.non_positive_on_log += non_positive;
         notes.unpaired += unpaired;
@@ -136,6 +163,19 @@ pub(crate) fn prepare(fig: &Figure) -> Prepared {
             messages.push(format!(
                 "reference line {}: non-finite, left out",
                 index + 1
+            ));
+            continue;
+        }
+        if g.value.abs() > MAX_MAGNITUDE
+            || (g.kind == GuideKind::Horizontal
+                && fig.log_y
+                && g.value > 0.0
+                && g.value < log_floor)
+        {
+            notes.out_of_range += 1;
+            messages.push(format!(
+                "reference line at {}: beyond the plotting range, left out",
+                tick_label(g.value)
             ));
             continue;
         }

@@ -55,6 +55,26 @@ pub fn fit(args: &FitArgs) -> anyhow::Result<Outcome> {
         writeln!(w)
     })?;
     folder.write_with("fitted.csv", |w| fitted::write_fitted(&analysis, w))?;
+    // Figures: SVG and PNG files, and the same SVGs inline in report.html.
+    let mut rendered = Vec::new();
+    for fig in fickfit::report::figures::figures(&analysis)? {
+        let svg = fickfit::report::plot::to_svg(&fig.figure)?.svg;
+        folder.write_with(&format!("{}.svg", fig.stem), |w| {
+            w.write_all(svg.as_bytes())
+        })?;
+        fickfit::report::plot::to_png(
+            &fig.figure,
+            folder.path().join(format!("{}.png", fig.stem)),
+        )?;
+        rendered.push((fig, svg));
+    }
+    let correlation = fickfit::report::figures::correlation(&analysis)?;
+    if let Some(svg) = &correlation {
+        folder.write_with("correlation.svg", |w| w.write_all(svg.as_bytes()))?;
+    }
+    let command = std::env::args().collect::<Vec<_>>().join(" ");
+    let page = fickfit::report::html::render(&report, &rendered, correlation.as_deref(), &command);
+    folder.write_with("report.html", |w| w.write_all(page.as_bytes()))?;
     let mut stdout = std::io::stdout().lock();
     if args.json {
         serde_json::to_writer_pretty(&mut stdout, &report)?;

@@ -9,7 +9,9 @@
 //! and as a PNG file, with an embedded font so that the output is the same on every machine.
 
 pub mod data;
+pub mod figures;
 pub mod fitted;
 pub mod folder;
+pub mod html;
 pub mod plot;
 pub mod terminal;

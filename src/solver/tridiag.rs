@@ -53,14 +53,29 @@ impl Factored {
     }
 
     /// Solve in place: `x` holds the right-hand side on entry and the solution on return.
+    ///
+    /// Both sweeps carry the previous value in a register rather than reloading it, so the
+    /// loop-carried dependency is one multiply-add, not a store-to-load round trip.
     pub fn solve(&self, x: &mut [f64]) {
         let n = x.len();
-        for i in 1..n {
-            x[i] -= self.mult[i] * x[i - 1];
+        let mult = &self.mult[..n];
+        let inv = &self.inv_pivot[..n];
+        let upper = &self.upper[..n];
+        let mut prev = x[0];
+        for (xi, m) in x[1..].iter_mut().zip(&mult[1..]) {
+            prev = *xi - m * prev;
+            *xi = prev;
         }
-        x[n - 1] *= self.inv_pivot[n - 1];
-        for i in (0..n - 1).rev() {
-            x[i] = (x[i] - self.upper[i] * x[i + 1]) * self.inv_pivot[i];
+        let mut next = x[n - 1] * inv[n - 1];
+        x[n - 1] = next;
+        for ((xi, u), w) in x[..n - 1]
+            .iter_mut()
+            .zip(&upper[..n - 1])
+            .zip(&inv[..n - 1])
+            .rev()
+        {
+            next = (*xi - u * next) * w;
+            *xi = next;
         }
     }
 }
@@ -76,15 +91,21 @@ pub fn solve_tridiagonal(
 ) {
     let n = diag.len();
     let mut w = diag[0];
-    scratch[0] = upper[0] / w;
-    x[0] /= w;
+    let mut c_prev = upper[0] / w;
+    scratch[0] = c_prev;
+    let mut x_prev = x[0] / w;
+    x[0] = x_prev;
     for i in 1..n {
-        w = diag[i] - lower[i] * scratch[i - 1];
-        scratch[i] = upper[i] / w;
-        x[i] = (x[i] - lower[i] * x[i - 1]) / w;
+        w = diag[i] - lower[i] * c_prev;
+        c_prev = upper[i] / w;
+        scratch[i] = c_prev;
+        x_prev = (x[i] - lower[i] * x_prev) / w;
+        x[i] = x_prev;
     }
+    let mut next = x[n - 1];
     for i in (0..n - 1).rev() {
-        x[i] -= scratch[i] * x[i + 1];
+        next = x[i] - scratch[i] * next;
+        x[i] = next;
     }
 }
 

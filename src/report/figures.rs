@@ -1,0 +1,270 @@
+//! The figures of a fit report, built from an [`Analysis`] as plain [`Figure`]s: data and
+//! model for every dataset, residuals, a normal Q–Q plot of the standardised residuals and the
+//! correlation matrix. Values are shown in the units written in the experiment file.
+
+use super::plot::{correlation_svg, qq_figure, residual_figure, Figure, LegendPosition, Series};
+use crate::analysis::Analysis;
+use crate::error::Result;
+use crate::experiment::quantity::value_unit;
+use crate::solver::Observable;
+use crate::solver::{Request, Solver};
+
+/// A figure with a file stem and a caption.
+#[derive(Debug, Clone)]
+pub struct NamedFigure {
+    /// File stem (`uptake-sorption`, `residuals-sorption`, ...).
+    pub stem: String,
+    /// One-line caption for the HTML report.
+    pub caption: String,
+    /// The figure.
+    pub figure: Figure,
+}
+
+/// Time axis unit: hours for long runs, minutes for medium, seconds otherwise.
+fn time_axis(t_max: f64) -> (f64, &'static str) {
+    if t_max >= 3.0 * 3600.0 {
+        (3600.0, "h")
+    } else if t_max >= 180.0 {
+        (60.0, "min")
+    } else {
+        (1.0, "s")
+    }
+}
+
+/// Length axis unit for positions.
+fn length_axis(x_max: f64) -> (f64, &'static str) {
+    if x_max < 2e-3 {
+        (1e-6, "µm")
+    } else if x_max < 2.0 {
+        (1e-3, "mm")
+    } else {
+        (1.0, "m")
+    }
+}
+
+/// A number with at most four significant digits and no trailing zeros.
+fn short(v: f64) -> String {
+    let s = format!("{:.4}", v);
+    let s = if s.contains('.') {
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        s
+    };
+    if s == "-0" {
+        "0".to_string()
+    } else {
+        s
+    }
+}
+
+/// Build every figure of the report.
+pub fn figures(analysis: &Analysis) -> Result<Vec<NamedFigure>> {
+    let e = &analysis.experiment;
+    let mut out = Vec::new();
+    let mut solver = Solver::new(e.solver.clone())?;
+    let params = &analysis.fit.estimates;
+    let mut std_residuals = Vec::new();
+    let s = analysis.fit.goodness.residual_sd;
+    let s = if s.is_finite() && s > 0.0 { s } else { 1.0 };
+    let mut offset = 0;
+    for (d, ds) in e.datasets.iter().enumerate() {
+        let unit = value_unit(&ds.value_unit);
+        let label = if ds.value_unit.is_empty() {
+            "value".to_string()
+        } else {
+            format!("value [{}]", ds.value_unit)
+        };
+        let pred = &analysis.predictions[d];
+        let times: Vec<f64> = ds.map.iter().map(|&(_, k)| ds.request.times[k]).collect();
+        let t_max = times.iter().cloned().fold(0.0, f64::max);
+        let (tscale, tunit) = time_axis(t_max);
+        let is_profile = ds.positions.iter().all(|p| p.is_some())
+            && ds.request.observables.len() > 1
+            && ds.request.times.len() < ds.request.observables.len();
+        let res: Vec<f64> = ds
+            .observed
+            .iter()
+            .zip(pred)
+            .map(|(y, p)| unit.from_si(*y) - unit.from_si(*p))
+            .collect();
+        std_residuals.extend(
+            analysis.fit.residuals[offset..offset + ds.len()]
+                .iter()
+                .map(|r| r / s),
+        );
+        offset += ds.len();
+        let model = ds.model_for(params)?;
+        if is_profile {
+            // One data series and one model curve per profile time, against depth.
+            let x_max = ds.positions.iter().flatten().cloned().fold(0.0, f64::max);
+            let (xs, xu) = length_axis(x_max);
+            let dense_x: Vec<f64> = (0..=120).map(|k| x_max * k as f64 / 120.0).collect();
+            let mut dense = ds.clone();
+            dense.request = Request {
+                times: ds.request.times.clone(),
+                observables: dense_x.iter().map(|&x| Observable::ValueAt(x)).collect(),
+            };
+            dense.map = (0..ds.request.times.len())
+                .flat_map(|k| (0..dense_x.len()).map(move |o| (o, k)))
+                .collect();
+            let sol = solver.solve(&model, &dense.request)?;
+            let curve = dense.predict(params, sol)?;
+            let mut fig = Figure::new(
+                format!("{}: profiles", ds.name),
+                format!("depth [{xu}]"),
+                label.clone(),
+            );
+            let mut resid_series = Vec::new();
+            for (k, &t) in ds.request.times.iter().enumerate() {
+                let (xd, yd): (Vec<f64>, Vec<f64>) = ds
+                    .map
+                    .iter()
+                    .zip(&ds.positions)
+                    .zip(&ds.observed)
+                    .filter(|((m, _), _)| m.1 == k)
+                    .map(|((_, p), y)| (p.unwrap_or(0.0) / xs, unit.from_si(*y)))
+                    .unzip();
+                let rr: Vec<f64> = ds
+                    .map
+                    .iter()
+                    .zip(&res)
+                    .filter(|(m, _)| m.1 == k)
+                    .map(|(_, r)| *r)
+                    .collect();
+                let tl = format!("t = {} {tunit}", short(t / tscale));
+                resid_series.push(Series::markers(tl.clone(), xd.clone(), rr));
+                fig = fig.with_series(Series::markers(format!("data, {tl}"), xd, yd));
+                let yc: Vec<f64> = curve[k * dense_x.len()..(k + 1) * dense_x.len()]
+                    .iter()
+                    .map(|v| unit.from_si(*v))
+                    .collect();
+                fig = fig.with_series(Series::line(
+                    format!("model, {tl}"),
+                    dense_x.iter().map(|x| x / xs).collect(),
+                    yc,
+                ));
+            }
+            out.push(NamedFigure {
+                stem: format!("data-{}", ds.name),
+                caption: format!(
+                    "{}: measured profiles (markers) and the fitted model (lines).",
+                    ds.name
+                ),
+                figure: fig,
+            });
+            out.push(NamedFigure {
+                stem: format!("residuals-{}", ds.name),
+                caption: format!("{}: residuals (observed − fitted) against depth.", ds.name),
+                figure: residual_figure(
+                    format!("{}: residuals", ds.name),
+                    format!("depth [{xu}]"),
+                    format!("residual [{}]", ds.value_unit),
+                    resid_series,
+                ),
+            });
+        } else {
+            // Time series and sensors: one series per observable against time.
+            let dense_t: Vec<f64> = (0..=200).map(|k| t_max * k as f64 / 200.0).collect();
+            let mut dense = ds.clone();
+            dense.request = Request {
+                times: dense_t.clone(),
+                observables: ds.request.observables.clone(),
+            };
+            let no = ds.request.observables.len();
+            dense.map = (0..no)
+                .flat_map(|o| (0..dense_t.len()).map(move |k| (o, k)))
+                .collect();
+            let sol = solver.solve(&model, &dense.request)?;
+            let curve = dense.predict(params, sol)?;
+            let mut fig = Figure::new(
+                format!("{}: data and fitted model", ds.name),
+                format!("time [{tunit}]"),
+                label.clone(),
+            );
+            let mut resid_series = Vec::new();
+            for o in 0..no {
+                let name = match ds.request.observables[o] {
+                    Observable::ValueAt(x) => {
+                        let (xs, xu) = length_axis(x.max(1e-9));
+                        format!("x = {} {xu}", short(x / xs))
+                    }
+                    _ => ds.name.clone(),
+                };
+                let (td, yd): (Vec<f64>, Vec<f64>) = ds
+                    .map
+                    .iter()
+                    .zip(&ds.observed)
+                    .filter(|(m, _)| m.0 == o)
+                    .map(|(m, y)| (ds.request.times[m.1] / tscale, unit.from_si(*y)))
+                    .unzip();
+                let rr: Vec<f64> = ds
+                    .map
+                    .iter()
+                    .zip(&res)
+                    .filter(|(m, _)| m.0 == o)
+                    .map(|(_, r)| *r)
+                    .collect();
+                resid_series.push(Series::markers(name.clone(), td.clone(), rr));
+                fig = fig.with_series(Series::markers(format!("data, {name}"), td, yd));
+                let yc: Vec<f64> = curve[o * dense_t.len()..(o + 1) * dense_t.len()]
+                    .iter()
+                    .map(|v| unit.from_si(*v))
+                    .collect();
+                fig = fig.with_series(Series::line(
+                    format!("model, {name}"),
+                    dense_t.iter().map(|t| t / tscale).collect(),
+                    yc,
+                ));
+            }
+            let rising = curve
+                .first()
+                .zip(curve.get(dense_t.len().saturating_sub(1)))
+                .is_some_and(|(a, b)| b > a);
+            if rising {
+                fig = fig.with_legend(LegendPosition::LowerRight);
+            }
+            out.push(NamedFigure {
+                stem: format!("data-{}", ds.name),
+                caption: format!(
+                    "{}: measurements (markers) and the fitted model (lines).",
+                    ds.name
+                ),
+                figure: fig,
+            });
+            out.push(NamedFigure {
+                stem: format!("residuals-{}", ds.name),
+                caption: format!("{}: residuals (observed − fitted) against time.", ds.name),
+                figure: residual_figure(
+                    format!("{}: residuals", ds.name),
+                    format!("time [{tunit}]"),
+                    format!("residual [{}]", ds.value_unit),
+                    resid_series,
+                ),
+            });
+        }
+    }
+    out.push(NamedFigure {
+        stem: "normal-qq".to_string(),
+        caption: "Normal Q–Q plot of the standardised residuals of all datasets: points on the \
+                  line mean normally distributed errors."
+            .to_string(),
+        figure: qq_figure(&std_residuals),
+    });
+    Ok(out)
+}
+
+/// The correlation matrix as an SVG heat map, when there are at least two free parameters.
+pub fn correlation(analysis: &Analysis) -> Result<Option<String>> {
+    let names = &analysis.fit.free_names;
+    if names.len() < 2 {
+        return Ok(None);
+    }
+    let m: Vec<Vec<f64>> = analysis
+        .fit
+        .covariance
+        .correlation
+        .iter()
+        .map(|r| r.iter().map(|v| v.unwrap_or(f64::NAN)).collect())
+        .collect();
+    Ok(Some(correlation_svg(names, &m)?.svg))
+}

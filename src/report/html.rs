@@ -1,0 +1,203 @@
+//! `report.html`: one self-contained file (inline SVG and CSS, no external assets, no
+//! scripts) that a colleague can open offline.
+
+use super::data::Report;
+use super::figures::NamedFigure;
+use super::terminal::num;
+use std::fmt::Write as _;
+
+/// Escape text for HTML.
+pub fn escape(s: &str) -> String {
+    let mut out = String::with_capacity(s.len());
+    for c in s.chars() {
+        match c {
+            '&' => out.push_str("&amp;"),
+            '<' => out.push_str("&lt;"),
+            '>' => out.push_str("&gt;"),
+            '"' => out.push_str("&quot;"),
+            '\'' => out.push_str("&#39;"),
+            _ => out.push(c),
+        }
+    }
+    out
+}
+
+/// Strip an XML declaration so an SVG document can be inlined in HTML.
+fn inline_svg(svg: &str) -> &str {
+    match svg.find("<svg") {
+        Some(i) => &svg[i..],
+        None => svg,
+    }
+}
+
+const STYLE: &str = "body{font-family:sans-serif;max-width:60rem;margin:2rem auto;padding:0 1rem;color:#1d1d1d;line-height:1.45}\
+h1{font-size:1.5rem}h2{font-size:1.15rem;margin-top:2rem;border-bottom:1px solid #bbb}\
+table{border-collapse:collapse;margin:.5rem 0}td,th{padding:.2rem .6rem;border-bottom:1px solid #ddd;text-align:right}\
+td:first-child,th:first-child{text-align:left}figure{margin:1rem 0}figcaption{font-size:.9rem;color:#444}\
+.warn{background:#fff4d6;border-left:4px solid #c98a00;padding:.4rem .8rem;margin:.3rem 0}\
+.caution{background:#f3f3f3;border-left:4px solid #555;padding:.6rem .9rem}code{font-size:.92em}";
+
+/// Render the report. `command` is the command line that reproduces it.
+pub fn render(
+    report: &Report,
+    figures: &[(NamedFigure, String)],
+    correlation_svg: Option<&str>,
+    command: &str,
+) -> String {
+    let mut h = String::new();
+    let title = report
+        .title
+        .clone()
+        .unwrap_or_else(|| "Diffusion fit".to_string());
+    let _ = write!(
+        h,
+        "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">\
+         <meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\
+         <title>{}</title><style>{STYLE}</style></head><body>\n",
+        escape(&title)
+    );
+    let _ = write!(
+        h,
+        "<h1>{}</h1>\n<p>The diffusion equation was fitted to the measurements below; the table \
+         gives each parameter with its standard error and confidence interval.</p>\n",
+        escape(&title)
+    );
+    let _ = writeln!(
+        h,
+        "<p>Experiment file <code>{}</code>, {} data points in {} dataset(s), {} free parameters.</p>",
+        escape(&report.experiment_file),
+        report.fit.n_points,
+        report.datasets.len(),
+        report.fit.n_free
+    );
+
+    h.push_str("<h2>Parameters</h2>\n<table><tr><th>parameter</th><th>estimate</th><th>std. error</th><th>interval</th><th>unit</th></tr>\n");
+    let level = report.parameters.first().map_or(0.95, |p| p.ci_level) * 100.0;
+    for p in &report.parameters {
+        let interval = if p.fixed {
+            "fixed".to_string()
+        } else if let Some(t) = &p.ci_transformed {
+            format!("[{}, {}]*", num(t.low), num(t.high))
+        } else {
+            format!("[{}, {}]", num(p.ci_low), num(p.ci_high))
+        };
+        let _ = writeln!(
+            h,
+            "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td></tr>",
+            escape(&p.name),
+            num(p.estimate),
+            if p.fixed {
+                String::new()
+            } else {
+                num(p.std_error)
+            },
+            escape(&interval),
+            escape(&p.unit)
+        );
+        if let Some(pr) = &p.profile {
+            let _ = writeln!(
+                h,
+                "<tr><td></td><td></td><td>profile</td><td>[{}, {}]</td><td></td></tr>",
+                num(pr.low),
+                num(pr.high)
+            );
+        }
+        if let Some(b) = &p.bootstrap {
+            let _ = writeln!(
+                h,
+                "<tr><td></td><td></td><td>bootstrap</td><td>[{}, {}]</td><td></td></tr>",
+                num(b.low),
+                num(b.high)
+            );
+        }
+    }
+    let _ = writeln!(
+        h,
+        "</table>\n<p>Intervals at {level:.0} % confidence (Student t from the Jacobian). \
+         * marks an interval formed on the parameter's fitted (log or bounded) scale.</p>"
+    );
+
+    let f = &report.fit;
+    h.push_str("<h2>Fit quality</h2>\n<table>");
+    for (k, v) in [
+        ("data points", f.n_points.to_string()),
+        ("free parameters", f.n_free.to_string()),
+        ("weighted RMSE", num(f.rmse)),
+        ("R²", num(f.r2)),
+        ("AICc", num(f.aicc)),
+        ("BIC", num(f.bic)),
+        ("iterations", f.iterations.to_string()),
+    ] {
+        let _ = writeln!(h, "<tr><td>{k}</td><td>{}</td></tr>", escape(&v));
+    }
+    if let Some(c) = &f.chi_square {
+        let _ = writeln!(
+            h,
+            "<tr><td>χ² (dof {})</td><td>{} (reduced {}, p = {})</td></tr>",
+            c.dof,
+            num(c.chi2),
+            num(c.reduced),
+            num(c.p_value)
+        );
+    }
+    let _ = writeln!(h, "</table>\n<p>{}</p>", escape(&f.stop_reason));
+
+    h.push_str("<h2>Residual checks</h2>\n<table><tr><th>dataset</th><th>points</th><th>runs (expected)</th><th>Durbin–Watson</th><th>verdict</th></tr>\n");
+    for d in &report.datasets {
+        let _ = writeln!(
+            h,
+            "<tr><td>{}</td><td>{}</td><td>{} ({})</td><td>{}</td><td>{}</td></tr>",
+            escape(&d.name),
+            d.n_points,
+            d.runs,
+            num(d.expected_runs),
+            num(d.durbin_watson),
+            escape(&d.verdict)
+        );
+    }
+    h.push_str("</table>\n");
+
+    if !report.warnings.is_empty() {
+        h.push_str("<h2>Warnings</h2>\n");
+        for w in &report.warnings {
+            let _ = writeln!(h, "<div class=\"warn\">{}</div>", escape(w));
+        }
+    }
+
+    h.push_str("<h2>Figures</h2>\n");
+    for (fig, svg) in figures {
+        let _ = writeln!(
+            h,
+            "<figure>{}<figcaption>{}</figcaption></figure>",
+            inline_svg(svg),
+            escape(&fig.caption)
+        );
+    }
+    if let Some(svg) = correlation_svg {
+        let _ = writeln!(
+            h,
+            "<figure>{}<figcaption>Correlation matrix of the free parameters: values near ±1 \
+             mean the data constrain only a combination of the two.</figcaption></figure>",
+            inline_svg(svg)
+        );
+    }
+
+    h.push_str(
+        "<h2>Caution</h2>\n<p class=\"caution\">These numbers are what the data and the chosen \
+         model support, within the stated uncertainties; the fit cannot see an experiment that \
+         differs from its description. Heated rods and furnaces burn, and solvents and dopant \
+         sources can be hazardous: follow your laboratory's safety rules. Have any result that \
+         feeds a safety-relevant design (case depth, barrier or coating life) confirmed under the \
+         applicable codes and by a qualified, licensed professional.</p>\n",
+    );
+    let _ = write!(
+        h,
+        "<h2>Reproduce</h2>\n<p><code>{}</code><br>fickfit {}, experiment file SHA-256 \
+         <code>{}</code>, report schema {}.</p>\n</body></html>\n",
+        escape(command),
+        escape(&report.fickfit_version),
+        escape(&report.experiment_sha256),
+        report.schema_version
+    );
+    h
+}

@@ -787,25 +787,6 @@ impl Solver {
         false
     }
 
-    /// y = J x + b(t) for a linear problem.
-    fn linear_f(&self, model: &Model, t: f64, x: &[f64], y: &mut [f64]) {
-        let w = &self.work;
-        let n = x.len();
-        let src = self.op.source_const();
-        if n == 1 {
-            y[0] = w.jd[0] * x[0] + self.op.linear_forcing(model, t, 0, 1);
-            return;
-        }
-        y[0] = w.jd[0] * x[0] + w.ju[0] * x[1] + self.op.linear_forcing(model, t, 0, n);
-        let (jl, jd, ju) = (&w.jl[..n], &w.jd[..n], &w.ju[..n]);
-        for i in 1..n - 1 {
-            y[i] = jl[i] * x[i - 1] + jd[i] * x[i] + ju[i] * x[i + 1] + src;
-        }
-        y[n - 1] = w.jl[n - 1] * x[n - 2]
-            + w.jd[n - 1] * x[n - 1]
-            + self.op.linear_forcing(model, t, n - 1, n);
-    }
-
     /// One TR-BDF2 step of a linear problem, in increment form so that round-off scales with
     /// the change over the step, not with the state (this keeps a sealed sample's amount
     /// constant to round-off):
@@ -831,37 +812,56 @@ impl Solver {
             }
             *last_c = c;
         }
-        let mut tmp = std::mem::take(&mut self.work.fe);
-        {
-            let u = std::mem::take(&mut self.work.u);
-            self.linear_f(model, t + GAMMA * h, &u, &mut tmp);
-            self.work.u = u;
-        }
+        // Forcing b(t) = F(0, t): the source term inside, plus the end terms in the end cells.
+        // Grids always have at least two cells (GridOptions::validate).
+        let src = self.op.source_const();
+        let forcing = |t: f64| {
+            (
+                self.op.linear_forcing(model, t, 0, n),
+                self.op.linear_forcing(model, t, n - 1, n),
+            )
+        };
+        let (b0, bn) = forcing(t + GAMMA * h);
+        let (b0_1, bn_1) = forcing(t + h);
+        let inv_c = 1.0 / c;
         let w = &mut self.work;
-        w.u_n.copy_from_slice(&w.u);
-        for i in 0..n {
-            w.delta[i] = c * (w.f_n[i] + tmp[i]);
+        let (jl, jd, ju) = (&w.jl[..n], &w.jd[..n], &w.ju[..n]);
+        // Stage 1: δ₁ = c (F_n + J u_n + b(t+γh)), and u_n = u.
+        {
+            let (u, f_n, delta) = (&w.u[..n], &w.f_n[..n], &mut w.delta[..n]);
+            delta[0] = c * (f_n[0] + jd[0] * u[0] + ju[0] * u[1] + b0);
+            for i in 1..n - 1 {
+                delta[i] = c * (f_n[i] + jl[i] * u[i - 1] + jd[i] * u[i] + ju[i] * u[i + 1] + src);
+            }
+            delta[n - 1] = c * (f_n[n - 1] + jl[n - 1] * u[n - 2] + jd[n - 1] * u[n - 1] + bn);
+            w.u_n[..n].copy_from_slice(u);
         }
         w.fact.solve(&mut w.delta);
-        let inv_c = 1.0 / c;
         for i in 0..n {
             w.u_g[i] = w.u_n[i] + w.delta[i];
-            w.f_g[i] = w.delta[i] * inv_c - w.f_n[i];
             w.est[i] = b_c * w.delta[i]; // b δ₁, kept for F_{n+1}
         }
-        {
-            let ug = std::mem::take(&mut self.work.u_g);
-            self.linear_f(model, t + h, &ug, &mut tmp);
-            self.work.u_g = ug;
+        if estimate {
+            for i in 0..n {
+                w.f_g[i] = w.delta[i] * inv_c - w.f_n[i];
+            }
         }
-        let w = &mut self.work;
-        for i in 0..n {
-            w.delta[i] = w.est[i] + c * tmp[i];
+        // Stage 2: δ₂ = b δ₁ + c (J u_γ + b(t+h)).
+        {
+            let (ug, est, delta) = (&w.u_g[..n], &w.est[..n], &mut w.delta[..n]);
+            delta[0] = est[0] + c * (jd[0] * ug[0] + ju[0] * ug[1] + b0_1);
+            for i in 1..n - 1 {
+                delta[i] =
+                    est[i] + c * (jl[i] * ug[i - 1] + jd[i] * ug[i] + ju[i] * ug[i + 1] + src);
+            }
+            delta[n - 1] = est[n - 1] + c * (jl[n - 1] * ug[n - 2] + jd[n - 1] * ug[n - 1] + bn_1);
         }
         w.fact.solve(&mut w.delta);
-        let inv_c = 1.0 / c;
+        let mut finite = 0.0;
         for i in 0..n {
-            w.u[i] = w.u_g[i] + w.delta[i];
+            let x = w.u_g[i] + w.delta[i];
+            w.u[i] = x;
+            finite += x;
             w.f_1[i] = (w.delta[i] - w.est[i]) * inv_c;
         }
         if estimate {
@@ -875,8 +875,8 @@ impl Solver {
             }
             w.fact.solve(&mut w.est);
         }
-        w.fe = tmp;
-        w.u.iter().all(|x| x.is_finite())
+        // A NaN or infinity anywhere makes the sum non-finite.
+        finite.is_finite()
     }
 
     /// One TR-BDF2 step from (t, u) of size h; leaves u_{n+1} in u, u_n in u_n, u_γ in u_g,

@@ -742,7 +742,7 @@ mod fuzz {
             1 => Just(f64::INFINITY),
             1 => Just(f64::NEG_INFINITY),
             1 => prop::num::f64::ANY,
-            1 => (1e-320..1e-300f64),
+            1 => 1e-320..1e-300f64,
         ]
     }
 

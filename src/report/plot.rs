@@ -11,7 +11,7 @@
 //!
 //! Robustness: non-finite values are left out and counted; on a logarithmic axis, values
 //! ≤ 0 are left out and counted; magnitudes above 10³⁰⁰ (and, on a logarithmic axis, values
-//! more than 290 decades below the largest) are left out and counted; `x` and `y` of unequal length are paired up to the shorter
+//! more than 250 decades below the largest) are left out and counted; `x` and `y` of unequal length are paired up to the shorter
 //! one and the rest counted. Every omission is returned in [`Notes`] and printed as a
 //! footnote in the figure itself, so a reader of the printed page sees it too. A figure with
 //! no point left draws an empty frame that says so. Nothing here panics on odd data.
@@ -274,7 +274,7 @@ pub struct Notes {
     /// Points left out because `x` and `y` of a series have different lengths.
     pub unpaired: usize,
     /// Points (and reference lines) left out because a coordinate's magnitude exceeds
-    /// 10³⁰⁰, or because on a logarithmic axis y lies more than 290 decades below the
+    /// 10³⁰⁰, or because on a logarithmic axis y lies more than 250 decades below the
     /// largest y (the axis could not be drawn otherwise).
     pub out_of_range: usize,
     /// True when nothing was left to draw, so the frame is empty.

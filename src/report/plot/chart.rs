@@ -30,7 +30,7 @@ const GRID_GREY: RGBColor = RGBColor(0xDD, 0xDD, 0xDD);
 /// Largest magnitude of a coordinate that is drawn; beyond it, spans overflow.
 const MAX_MAGNITUDE: f64 = 1e300;
 /// Most decades a logarithmic axis spans.
-const MAX_LOG_DECADES: i32 = 290;
+const MAX_LOG_DECADES: i32 = 250;
 /// Height of the footnote strip in pixels.
 const FOOTNOTE_HEIGHT: u32 = 22;
 
@@ -98,6 +98,12 @@ pub(crate) fn prepare(fig: &Figure) -> Prepared {
         fig.series
             .iter()
             .flat_map(|s| s.y.iter().copied())
+            .chain(
+                fig.guides
+                    .iter()
+                    .filter(|g| g.kind == GuideKind::Horizontal)
+                    .map(|g| g.value),
+            )
             .filter(|y| y.is_finite() && *y > 0.0 && *y <= MAX_MAGNITUDE)
             .fold(None, |m: Option<f64>, y| Some(m.map_or(y, |m| m.max(y))))
             .map_or(0.0, |max| max * 10f64.powi(-MAX_LOG_DECADES))
@@ -275,10 +281,12 @@ fn log_range(b: Bounds) -> (f64, f64) {
             let (l, h) = (lo.log10(), hi.log10());
             let pad = if h > l { 0.05 * (h - l) } else { 0.5 };
             let (a, b) = (10f64.powf(l - pad), 10f64.powf(h + pad));
-            if a > 0.0 && b.is_finite() && a < b {
+            if a > 0.0 && b.is_finite() && a < b && (b / a).is_finite() {
                 (a, b)
+            } else if hi > 0.0 && hi.is_finite() {
+                (hi * 10f64.powi(-MAX_LOG_DECADES), hi * 10.0)
             } else {
-                (lo, hi.max(lo * 10.0))
+                (1.0, 10.0)
             }
         }
     }

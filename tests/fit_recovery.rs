@@ -93,10 +93,12 @@ fn synthetic(noise_mg: f64, seed: u64) -> tempfile::TempDir {
     dir
 }
 
-#[test]
-fn noise_free_film_uptake_recovers_truth() {
-    let dir = synthetic(0.0, 1);
-    // Start 3× off in D and 5× off in h.
+/// Fit synthetic data from a start 3× off in D and 5× off in h.
+fn fit_synthetic(
+    noise_mg: f64,
+    seed: u64,
+) -> (Arc<experiment::Experiment>, fickfit::analysis::Analysis) {
+    let dir = synthetic(noise_mg, seed);
     std::fs::write(
         dir.path().join("fit.toml"),
         film_toml("6e-13 m2/s", "2e-8 m/s", "0.002 mg"),
@@ -105,6 +107,12 @@ fn noise_free_film_uptake_recovers_truth() {
     let exp = Arc::new(experiment::load(dir.path().join("fit.toml")).unwrap());
     let a = analyse(exp.clone(), &AnalysisOptions::default()).unwrap();
     assert!(a.fit.stop.converged(), "{}", a.fit.stop_message);
+    (exp, a)
+}
+
+#[test]
+fn noise_free_film_uptake_recovers_truth() {
+    let (exp, a) = fit_synthetic(0.0, 1);
     let truth = [
         ("D", 2.0e-13),
         ("h", 4e-9),
@@ -123,15 +131,7 @@ fn noise_free_film_uptake_recovers_truth() {
 
 #[test]
 fn noisy_film_uptake_intervals_cover_truth() {
-    let dir = synthetic(0.002, 7);
-    std::fs::write(
-        dir.path().join("fit.toml"),
-        film_toml("6e-13 m2/s", "2e-8 m/s", "0.002 mg"),
-    )
-    .unwrap();
-    let exp = Arc::new(experiment::load(dir.path().join("fit.toml")).unwrap());
-    let a = analyse(exp.clone(), &AnalysisOptions::default()).unwrap();
-    assert!(a.fit.stop.converged(), "{}", a.fit.stop_message);
+    let (exp, a) = fit_synthetic(0.002, 7);
     for (name, value) in [("D", 2.0e-13), ("h", 4e-9)] {
         let k = exp.parameter_index(name).unwrap();
         let p = &a.fit.parameters[k];

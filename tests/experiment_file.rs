@@ -765,3 +765,21 @@ fn run_column_selects_one_run_of_a_shared_file() {
         .to_string();
     assert!(err.contains("'C'") && err.contains("A, B"), "{err}");
 }
+
+/// Rows before the time origin are kept as the baseline and reported, not silently dropped.
+#[test]
+fn baseline_rows_are_reported() {
+    let e = fickfit::experiment::load(dir().join("film_uptake.toml")).unwrap();
+    let d = e.datasets.iter().find(|d| d.name == "desorption").unwrap();
+    let w = d
+        .warnings
+        .iter()
+        .find(|w| w.kind == fickfit::data::WarningKind::Baseline)
+        .expect("a baseline warning");
+    assert!(
+        w.message.contains("before the time origin"),
+        "{}",
+        w.message
+    );
+    assert!(w.location.line.is_some());
+}

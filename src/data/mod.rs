@@ -102,6 +102,8 @@ pub enum WarningKind {
     IrregularSampling,
     /// A point far from its neighbours ([`checks::OUTLIER_SIGMAS`] robust σ).
     Outlier,
+    /// Rows before the time origin: kept as the baseline, not fitted.
+    Baseline,
 }
 
 /// A plausibility warning: the data were loaded, but the user may want to look.

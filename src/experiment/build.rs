@@ -1540,7 +1540,7 @@ fn dataset(
                 ));
             }
             let loaded = data::read_time_series(&path, &cols, &opts)?;
-            warnings = loaded.warnings;
+            let mut series_warnings = loaded.warnings;
             let s = match &d.run {
                 None => loaded.data.into_iter().next(),
                 Some(label) => {
@@ -1564,6 +1564,20 @@ fn dataset(
                 }
             }
             .ok_or_else(|| b.err(InputKind::Empty, &k("file"), "no data rows"))?;
+            if let (Some(&first), Some(&last)) = (s.baseline.line.first(), s.baseline.line.last()) {
+                let n = s.baseline.value.len();
+                let mean = s.baseline.value.iter().sum::<f64>() / n as f64;
+                series_warnings.push(Warning {
+                    kind: crate::data::WarningKind::Baseline,
+                    location: crate::error::Location::file(&path).with_line(first),
+                    message: format!(
+                        "{n} row(s) before the time origin (lines {first}–{last}) are the baseline, mean {} {}; they are not fitted (use their mean as the start of an offset parameter, or as the initial state)",
+                        s.value_unit.from_si(mean),
+                        s.value_unit.label()
+                    ),
+                });
+            }
+            warnings = series_warnings;
             let obs = match d.observe {
                 ObserveName::Value => {
                     let p = d.position.as_ref().ok_or_else(|| {

@@ -48,7 +48,29 @@ pub fn fit(args: &FitArgs) -> anyhow::Result<Outcome> {
         seed: args.seed,
         ..Default::default()
     };
-    let analysis = analyse(Arc::new(experiment), &options)?;
+    // A spinner with the elapsed time on stderr for the long extras; hidden when stderr is
+    // not a terminal or with --quiet.
+    let spinner = if (args.profile || args.bootstrap > 0) && !args.quiet && !args.json {
+        let bar = indicatif::ProgressBar::new_spinner();
+        let what = match (args.profile, args.bootstrap) {
+            (true, 0) => "profile-likelihood intervals".to_string(),
+            (false, n) => format!("{n} bootstrap refits"),
+            (true, n) => format!("profile-likelihood intervals and {n} bootstrap refits"),
+        };
+        bar.set_message(format!("fitting, with {what}"));
+        bar.enable_steady_tick(std::time::Duration::from_millis(200));
+        if let Ok(style) = indicatif::ProgressStyle::with_template("{spinner} {msg} ({elapsed})") {
+            bar.set_style(style);
+        }
+        Some(bar)
+    } else {
+        None
+    };
+    let analysis = analyse(Arc::new(experiment), &options);
+    if let Some(bar) = spinner {
+        bar.finish_and_clear();
+    }
+    let analysis = analysis?;
     let report = Report::new(&analysis, &bytes);
     folder.write_with("report.json", |w| {
         serde_json::to_writer_pretty(&mut *w, &report).map_err(std::io::Error::other)?;

@@ -3,7 +3,7 @@
 
 use super::data::Report;
 use super::figures::NamedFigure;
-use super::terminal::num;
+use super::terminal::{num, num_with_error};
 use std::fmt::Write as _;
 
 /// Escape text for HTML.
@@ -85,7 +85,7 @@ pub fn render(
             h,
             "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td></tr>",
             escape(&p.name),
-            num(p.estimate),
+            num_with_error(p.estimate, p.std_error),
             if p.fixed {
                 String::new()
             } else {

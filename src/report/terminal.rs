@@ -17,6 +17,22 @@ pub fn num(x: Option<f64>) -> String {
     }
 }
 
+/// An estimate shown with enough digits that its standard error's second significant digit
+/// is visible (and at least five significant digits).
+pub fn num_with_error(x: Option<f64>, se: Option<f64>) -> String {
+    match (x, se) {
+        (Some(v), Some(e))
+            if v != 0.0 && e > 0.0 && e.is_finite() && (1e-3..1e5).contains(&v.abs()) =>
+        {
+            let by_value = 4 - v.abs().log10().floor() as i32;
+            let by_error = 1 - e.log10().floor() as i32;
+            let decimals = by_value.max(by_error).clamp(0, 12) as usize;
+            format!("{v:.decimals$}")
+        }
+        _ => num(x),
+    }
+}
+
 /// Write the summary: parameters, fit quality, residual verdicts, warnings.
 pub fn write_summary(report: &Report, out: &mut dyn Write) -> io::Result<()> {
     if let Some(t) = &report.title {
@@ -45,7 +61,7 @@ pub fn write_summary(report: &Report, out: &mut dyn Write) -> io::Result<()> {
             out,
             "{:<22} {:>13} {:>12} {:>27}  {}",
             p.name,
-            num(p.estimate),
+            num_with_error(p.estimate, p.std_error),
             if p.fixed {
                 String::new()
             } else {

@@ -98,7 +98,7 @@ pub fn analyse(experiment: Arc<Experiment>, options: &AnalysisOptions) -> Result
         ..Default::default()
     };
     fit_options.lm.max_iterations = experiment.fit.maximum_iterations;
-    fit_options.lm.ftol = experiment.fit.tolerance.min(fit_options.lm.ftol.max(1e-10));
+    fit_options.lm.ftol = experiment.fit.tolerance;
 
     let mut problem = ExperimentProblem::new(experiment.clone())?;
     let n_sets = experiment.datasets.len();

@@ -1,7 +1,7 @@
 //! Synthetic data: the forward model of every dataset at given parameter values, with optional
 //! seeded Gaussian noise.
 //!
-//! Two forms: [`simulate`] gives a long table (`dataset, time [s], position [m], value`, SI),
+//! Two forms: [`simulate`] gives every predicted point (dataset, time, position, value, SI),
 //! and [`rewrite_data_file`] writes a copy of a dataset's own data file with every measured
 //! cell replaced by the simulated value in that column's unit — the same shape, header, units,
 //! comments and other columns, so the experiment file can read it back unchanged. That is how
@@ -13,7 +13,6 @@ use crate::solver::Solver;
 use rand::rngs::StdRng;
 use rand::SeedableRng;
 use rand_distr::{Distribution, Normal};
-use std::io::{self, Write};
 
 /// One simulated point.
 #[derive(Debug, Clone, PartialEq)]
@@ -33,28 +32,6 @@ pub struct SimulatedPoint {
 pub struct SimulatedTable {
     /// Rows in dataset order, then data order.
     pub points: Vec<SimulatedPoint>,
-}
-
-impl SimulatedTable {
-    /// Write the table as CSV.
-    pub fn write_csv(&self, out: &mut dyn Write) -> io::Result<()> {
-        writeln!(out, "dataset,time [s],position [m],value")?;
-        for p in &self.points {
-            let name = if p.dataset.contains([',', '"']) {
-                format!("\"{}\"", p.dataset.replace('"', "\"\""))
-            } else {
-                p.dataset.clone()
-            };
-            writeln!(
-                out,
-                "{name},{:.10e},{},{:.10e}",
-                p.time,
-                p.position.map(|x| format!("{x:.10e}")).unwrap_or_default(),
-                p.value
-            )?;
-        }
-        Ok(())
-    }
 }
 
 /// Simulate every dataset of `experiment` at `params` (full SI vector) with Gaussian noise of

@@ -40,11 +40,6 @@ impl Signal {
         }
     }
 
-    /// True for a constant signal.
-    pub fn is_constant(&self) -> bool {
-        matches!(self, Signal::Constant(_))
-    }
-
     /// The times at which a table's slope changes (its rows), so a time stepper can land on them.
     pub fn breakpoints(&self) -> &[(f64, f64)] {
         match self {

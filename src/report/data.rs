@@ -6,6 +6,7 @@
 //! finite is written as `null`, never as NaN or infinity.
 
 use crate::analysis::Analysis;
+use crate::experiment::quantity::value_unit;
 use crate::experiment::Experiment;
 use serde::Serialize;
 use sha2::{Digest, Sha256};
@@ -148,9 +149,9 @@ pub struct DatasetSummary {
     pub file: String,
     /// Points.
     pub n_points: usize,
-    /// Root-mean-square residual in the data's unit (unweighted).
+    /// Root-mean-square residual (unweighted), in `unit`.
     pub rms_residual: Option<f64>,
-    /// Unit of the data.
+    /// Unit of the data as written in the data file.
     pub unit: String,
     /// Residual scale used for weighting (1 for absolute σ).
     pub weight_scale: Option<f64>,
@@ -271,8 +272,9 @@ impl Report {
                     name: ds.name.clone(),
                     file: ds.file_as_written.clone(),
                     n_points: ds.len(),
-                    rms_residual: finite(rms),
-                    unit: "SI".to_string(),
+                    // A residual is a difference: scale only, no temperature offset.
+                    rms_residual: finite(value_unit(&ds.value_unit).diff_from_si(rms)),
+                    unit: ds.value_unit.clone(),
                     weight_scale: finite(analysis.dataset_scales[d]),
                     runs: checks.map_or(0, |c| c.runs),
                     expected_runs: checks.and_then(|c| finite(c.expected_runs)),

@@ -563,7 +563,7 @@ impl Solver {
             let ok = if linear {
                 self.step_linear(model, t, hs, c, &mut last_c, adaptive)
             } else {
-                self.step(model, false, t, hs, c, &mut last_c, &mut stats)
+                self.step(model, t, hs, c, &mut last_c, &mut stats)
             };
             if !ok {
                 {
@@ -725,35 +725,18 @@ impl Solver {
         w.fact.factor(&w.ml, &w.md, &w.mu)
     }
 
-    /// Solve the stage equation u − c F(u, t) = rhs; u holds the initial guess on entry.
-    /// Returns false when Newton fails.
+    /// Solve the stage equation u − c F(u, t) = rhs of a nonlinear problem by Newton's method;
+    /// u holds the initial guess on entry. Returns false when Newton fails. (Linear problems
+    /// take the increment form of [`Solver::step_linear`] instead.)
     fn stage(
         &mut self,
         model: &Model,
-        linear: bool,
         t: f64,
         c: f64,
         last_c: &mut f64,
         stats: &mut SolveStats,
     ) -> bool {
         let n = self.work.u.len();
-        if linear {
-            if c != *last_c {
-                if !self.factor(c) {
-                    return false;
-                }
-                *last_c = c;
-            }
-            let w = &mut self.work;
-            let interior = c * self.op.source_const();
-            for i in 0..n {
-                w.u[i] = w.rhs[i] + interior;
-            }
-            w.u[0] = w.rhs[0] + c * self.op.linear_forcing(model, t, 0, n);
-            w.u[n - 1] = w.rhs[n - 1] + c * self.op.linear_forcing(model, t, n - 1, n);
-            w.fact.solve(&mut w.u);
-            return w.u.iter().all(|x| x.is_finite());
-        }
         *last_c = f64::NAN;
         let tol = 1e-3 * self.options.tolerance;
         for _ in 0..self.options.maximum_newton_iterations {
@@ -879,13 +862,12 @@ impl Solver {
         finite.is_finite()
     }
 
-    /// One TR-BDF2 step from (t, u) of size h; leaves u_{n+1} in u, u_n in u_n, u_γ in u_g,
-    /// F(u_{n+1}) in f_1 and the filtered error estimate in est. False when Newton fails.
-    #[allow(clippy::too_many_arguments)]
+    /// One TR-BDF2 step of a nonlinear problem from (t, u) of size h; leaves u_{n+1} in u,
+    /// u_n in u_n, u_γ in u_g, F(u_{n+1}) in f_1 and the filtered error estimate in est. False
+    /// when Newton fails.
     fn step(
         &mut self,
         model: &Model,
-        linear: bool,
         t: f64,
         h: f64,
         c: f64,
@@ -905,7 +887,7 @@ impl Solver {
             }
         }
         // TR stage to t + γh.
-        if !self.stage(model, linear, t + GAMMA * h, c, last_c, stats) {
+        if !self.stage(model, t + GAMMA * h, c, last_c, stats) {
             self.work.u.copy_from_slice(&self.work.u_n);
             return false;
         }
@@ -920,7 +902,7 @@ impl Solver {
             }
         }
         // BDF2 stage to t + h.
-        if !self.stage(model, linear, t + h, c, last_c, stats) {
+        if !self.stage(model, t + h, c, last_c, stats) {
             self.work.u.copy_from_slice(&self.work.u_n);
             return false;
         }

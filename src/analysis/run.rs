@@ -8,6 +8,8 @@
 //! scale is simply the residual standard deviation and one pass suffices.
 
 use super::problem::ExperimentProblem;
+use super::shortcuts::{self, ShortcutEstimate};
+use super::starts::{self, StartNote};
 use crate::error::Result;
 use crate::experiment::{Experiment, Weighting as DataWeighting};
 use crate::fit::bootstrap::BootstrapOptions;
@@ -56,6 +58,12 @@ pub struct Analysis {
     pub predictions: Vec<Vec<f64>>,
     /// Weighting passes made.
     pub passes: usize,
+    /// The classic shortcut estimates that match the experiment's datasets.
+    pub shortcuts: Vec<ShortcutEstimate>,
+    /// How each start value the experiment file left out was chosen.
+    pub start_notes: Vec<StartNote>,
+    /// The quantities the experiment file asks to derive (`[derived]`).
+    pub derived: Vec<super::derived::Derived>,
 }
 
 /// The engine's parameter specs for an experiment, starting from `start` (SI).
@@ -78,8 +86,17 @@ pub fn parameter_specs(experiment: &Experiment, start: &[f64]) -> Vec<ParamSpec>
         .collect()
 }
 
-/// Fit an experiment.
+/// Fit an experiment. Start values the experiment file leaves out are chosen first
+/// ([`starts::complete`]).
 pub fn analyse(experiment: Arc<Experiment>, options: &AnalysisOptions) -> Result<Analysis> {
+    let shortcut_list = shortcuts::estimate_all(&experiment, &starts::values_for_models(&experiment));
+    let (experiment, start_notes) = if experiment.pending_starts().is_empty() {
+        (experiment, Vec::new())
+    } else {
+        let mut e = (*experiment).clone();
+        let notes = starts::complete(&mut e, Some(&shortcut_list))?;
+        (Arc::new(e), notes)
+    };
     let absolute: Vec<bool> = experiment
         .datasets
         .iter()
@@ -156,13 +173,18 @@ pub fn analyse(experiment: Arc<Experiment>, options: &AnalysisOptions) -> Result
     }
     problem.set_scales(&scales)?;
     let predictions = problem.predictions(&result.estimates)?;
-    Ok(Analysis {
+    let mut analysis = Analysis {
         experiment,
         fit: result,
         dataset_scales: scales,
         predictions,
         passes,
-    })
+        shortcuts: shortcut_list,
+        start_notes,
+        derived: Vec::new(),
+    };
+    analysis.derived = super::derived::derive_all(&analysis);
+    Ok(analysis)
 }
 
 fn set_interval_options(opts: &mut FitOptions, options: &AnalysisOptions) {

@@ -29,7 +29,7 @@ pub struct Cli {
 pub enum Command {
     /// Fit an experiment and write a report folder.
     #[command(
-        after_help = "Example:\n  fickfit fit sample-data/film-uptake/experiment.toml --out film-report\n  fickfit fit rod.toml --profile --bootstrap 500 --seed 7 --out rod-report"
+        after_help = "Example:\n  fickfit fit sample-data/film-uptake/experiment.toml --out film-report\n  fickfit fit rod.toml --profile --bootstrap 500 --seed 7 --out rod-report\n  fickfit fit film.toml --compare film-exponential-D.toml --out film-report"
     )]
     Fit(FitArgs),
     /// Run the forward model at the experiment's parameter values and write a CSV in the
@@ -74,6 +74,14 @@ pub struct FitArgs {
     /// Seed for the bootstrap and random starts.
     #[arg(long, value_name = "N", default_value_t = 1)]
     pub seed: u64,
+    /// Also fit this experiment file (the same data with other physics, e.g. D(u) or no
+    /// surface resistance) and rank the models by AICc; repeat for more variants.
+    #[arg(long, value_name = "EXPERIMENT")]
+    pub compare: Vec<PathBuf>,
+    /// With absolute uncertainties, multiply the covariance by the reduced χ² (use when the
+    /// stated σ may be too small or too large; default: trust the σ as given).
+    #[arg(long)]
+    pub rescale: bool,
     /// Print the report as JSON on standard output instead of the summary table.
     #[arg(long)]
     pub json: bool,

@@ -46,8 +46,14 @@ pub fn fit(args: &FitArgs) -> anyhow::Result<Outcome> {
         profile: args.profile,
         bootstrap: args.bootstrap,
         seed: args.seed,
-        ..Default::default()
+        rescale_absolute: args.rescale,
     };
+    // Variants to compare are loaded before the fit, so a bad file fails at once.
+    let variants = args
+        .compare
+        .iter()
+        .map(|p| load(p).map(|(e, _)| e))
+        .collect::<anyhow::Result<Vec<_>>>()?;
     // A spinner with the elapsed time on stderr for the long extras; hidden when stderr is
     // not a terminal or with --quiet.
     let spinner = if (args.profile || args.bootstrap > 0) && !args.quiet && !args.json {
@@ -71,7 +77,26 @@ pub fn fit(args: &FitArgs) -> anyhow::Result<Outcome> {
         bar.finish_and_clear();
     }
     let analysis = analysis?;
-    let report = Report::new(&analysis, &bytes);
+    let mut report = Report::new(&analysis, &bytes);
+    if !variants.is_empty() {
+        let plain = AnalysisOptions {
+            profile: false,
+            bootstrap: 0,
+            ..options.clone()
+        };
+        let others = variants
+            .into_iter()
+            .zip(&args.compare)
+            .map(|(e, path)| {
+                analyse(Arc::new(e), &plain)
+                    .with_context(|| format!("fitting the variant {}", path.display()))
+            })
+            .collect::<anyhow::Result<Vec<_>>>()?;
+        let mut all = vec![&analysis];
+        all.extend(others.iter());
+        let cmp = fickfit::analysis::compare::compare(&all)?;
+        report.comparison = Some(fickfit::report::data::ComparisonReport::new(&cmp, &all));
+    }
     folder.write_with("report.json", |w| {
         serde_json::to_writer_pretty(&mut *w, &report).map_err(std::io::Error::other)?;
         writeln!(w)
@@ -139,7 +164,11 @@ pub fn check(args: &CheckArgs) -> anyhow::Result<Outcome> {
             out,
             "  {:<20} {} {}  {}{}{}",
             p.name,
-            terminal::num(Some(p.to_unit(p.start))),
+            if p.start_given {
+                terminal::num(Some(p.to_unit(p.start)))
+            } else {
+                "(from data)".to_string()
+            },
             p.unit,
             if p.free { "free" } else { "fixed" },
             if p.log { ", log scale" } else { "" },
@@ -158,6 +187,31 @@ pub fn check(args: &CheckArgs) -> anyhow::Result<Outcome> {
         )?;
         for w in &d.warnings {
             writeln!(out, "    warning: {}: {}", w.location, w.message)?;
+        }
+    }
+    let shortcut_list = fickfit::analysis::shortcuts::estimate_all(
+        &e,
+        &fickfit::analysis::starts::values_for_models(&e),
+    );
+    terminal::write_shortcuts(
+        &fickfit::report::data::shortcut_rows(&e, &shortcut_list, None),
+        &mut out,
+    )?;
+    if !e.pending_starts().is_empty() {
+        let mut filled = e.clone();
+        let notes = fickfit::analysis::starts::complete(&mut filled, Some(&shortcut_list))?;
+        writeln!(out)?;
+        writeln!(out, "start values derived from the data:")?;
+        for n in notes {
+            let p = &filled.parameters[n.parameter];
+            writeln!(
+                out,
+                "  {:<20} {} {}  ({})",
+                p.name,
+                terminal::num(Some(p.to_unit(n.value))),
+                p.unit,
+                n.how
+            )?;
         }
     }
     if e.point_count() <= e.free_count() {
@@ -209,6 +263,17 @@ pub fn simulate(args: &SimulateArgs) -> anyhow::Result<Outcome> {
             );
         }
         targets.push(path);
+    }
+    if let Some(&i) = experiment.pending_starts().first() {
+        let p = &experiment.parameters[i];
+        return Err(fickfit::error::Error::setting(
+            format!("{}.start", p.key),
+            format!(
+                "simulate runs the model at the start values, and parameter '{}' has none: give `start`",
+                p.name
+            ),
+        )
+        .into());
     }
     let params = experiment.start_values();
     for (d, (spec, ds)) in written

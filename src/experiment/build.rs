@@ -39,8 +39,12 @@ pub struct Parameter {
     pub unit_offset: f64,
     /// What it measures.
     pub kind: Kind,
-    /// Start value, SI.
+    /// Start value, SI. NaN while `start_given` is false and no automatic start has been
+    /// filled in yet (see [`Experiment::pending_starts`]).
     pub start: f64,
+    /// True when the experiment file gave the start value; false when it is to be derived
+    /// from the data (`crate::analysis::starts`).
+    pub start_given: bool,
     /// Lower bound, SI.
     pub lower: Option<f64>,
     /// Upper bound, SI.
@@ -54,6 +58,20 @@ pub struct Parameter {
 }
 
 impl Parameter {
+    /// A positive value inside the bounds, for building models before a pending automatic
+    /// start is known (the geometric or plain middle of the bounds, or 1).
+    pub fn placeholder(&self) -> f64 {
+        match (self.lower, self.upper) {
+            (Some(lo), Some(hi)) if self.log && lo > 0.0 => (lo * hi).sqrt(),
+            (Some(lo), Some(hi)) => 0.5 * (lo + hi),
+            (Some(lo), None) if lo > 0.0 => lo * 10.0,
+            (Some(lo), None) => lo + 1.0,
+            (None, Some(hi)) if hi > 0.0 => hi / 10.0,
+            (None, Some(hi)) => hi - 1.0,
+            (None, None) => 1.0,
+        }
+    }
+
     /// An SI value in the reporting unit.
     pub fn to_unit(&self, si: f64) -> f64 {
         (si - self.unit_offset) / self.unit_scale
@@ -363,6 +381,44 @@ impl Dataset {
         Ok(())
     }
 
+    /// The parameter that is the diffusivity of this run (the constant D, or D0 of a
+    /// concentration-dependent law) when the sample is a single layer whose D is a parameter.
+    pub fn diffusivity_parameter(&self) -> Option<usize> {
+        match self.template.layers.as_slice() {
+            [layer] => match layer.law {
+                LawT::Constant(Num::Param(i))
+                | LawT::Exponential(Num::Param(i), _, _)
+                | LawT::Linear(Num::Param(i), _, _) => Some(i),
+                _ => None,
+            },
+            _ => None,
+        }
+    }
+
+    /// The parameter that scales this run's model output (`scale = "M_inf"`), if any.
+    pub fn scale_parameter(&self) -> Option<usize> {
+        match self.scale {
+            Some(Num::Param(i)) => Some(i),
+            _ => None,
+        }
+    }
+
+    /// The parameter added to this run's model output (`offset = "m0"`), if any.
+    pub fn offset_parameter(&self) -> Option<usize> {
+        match self.offset {
+            Some(Num::Param(i)) => Some(i),
+            _ => None,
+        }
+    }
+
+    /// The fixed scale and offset of this run's output (`f = offset + scale · s`) at `params`.
+    pub fn scale_and_offset(&self, params: &[f64]) -> (f64, f64) {
+        (
+            self.scale.map_or(1.0, |n| n.get(params)),
+            self.offset.map_or(0.0, |n| n.get(params)),
+        )
+    }
+
     /// [`Dataset::predict_into`] into a new vector.
     pub fn predict(&self, params: &[f64], solution: &Solution) -> Result<Vec<f64>> {
         let mut out = Vec::with_capacity(self.map.len());
@@ -388,12 +444,60 @@ pub struct Experiment {
     pub solver: SolverOptions,
     /// Fit options.
     pub fit: FitOptions,
+    /// Quantities to derive from the fit (`[derived]`).
+    pub derived: Vec<DerivedRequest>,
+}
+
+/// A quantity to derive from the fitted parameters (`[derived.NAME]`), SI.
+#[derive(Debug, Clone, PartialEq)]
+pub struct DerivedRequest {
+    /// The table's name.
+    pub name: String,
+    /// What to compute.
+    pub what: DerivedWhat,
+}
+
+/// The derived quantities.
+#[derive(Debug, Clone, PartialEq)]
+pub enum DerivedWhat {
+    /// k = α ρ c_p, W/(m K).
+    Conductivity {
+        /// Index of the diffusivity parameter α.
+        diffusivity: usize,
+        /// ρ, kg/m³, and its standard uncertainty.
+        density: (f64, f64),
+        /// c_p, J/(kg K), and its standard uncertainty.
+        heat_capacity: (f64, f64),
+    },
+    /// Time, s, at which a run's fractional uptake first reaches `fraction`.
+    EquilibriumTime {
+        /// Index of the dataset.
+        dataset: usize,
+        /// Fraction of the equilibrium change, 0 < f < 1.
+        fraction: f64,
+    },
+    /// Flux in through an end of a run at the given times (s), in value unit · m/s (SI).
+    FluxIn {
+        /// Index of the dataset.
+        dataset: usize,
+        /// The end.
+        end: End,
+        /// Times, s.
+        times: Vec<f64>,
+    },
 }
 
 impl Experiment {
-    /// Start values of every parameter, SI.
+    /// Start values of every parameter, SI (NaN for a pending automatic start).
     pub fn start_values(&self) -> Vec<f64> {
         self.parameters.iter().map(|p| p.start).collect()
+    }
+
+    /// Indices of the parameters whose start is still to be derived from the data.
+    pub fn pending_starts(&self) -> Vec<usize> {
+        (0..self.parameters.len())
+            .filter(|&i| !self.parameters[i].start.is_finite())
+            .collect()
     }
 
     /// Index of a parameter by its full name (`D`, `M_inf[sorption]`).
@@ -594,12 +698,12 @@ impl<'a> Builder<'a> {
         // A per-dataset start value may be given in the dataset.
         let (start_scalar, start_key) = match self.dataset {
             Some((i, d)) if spec.per_dataset => match d.starts.as_ref().and_then(|s| s.get(name)) {
-                Some(s) => (s, format!("datasets[{i}].starts.{name}")),
-                None => (&spec.start, format!("{pkey}.start")),
+                Some(s) => (Some(s), format!("datasets[{i}].starts.{name}")),
+                None => (spec.start.as_ref(), format!("{pkey}.start")),
             },
-            _ => (&spec.start, format!("{pkey}.start")),
+            _ => (spec.start.as_ref(), format!("{pkey}.start")),
         };
-        if let Scalar::Text(t) = start_scalar {
+        if let Some(Scalar::Text(t)) = start_scalar {
             if !quantity::looks_numeric(t) {
                 let what = if t.trim() == name {
                     format!("parameter '{name}' is defined from itself")
@@ -610,27 +714,45 @@ impl<'a> Builder<'a> {
                     InputKind::BadValue,
                     &start_key,
                     format!(
-                        "{what}: give a number with unit, such as \"{}\"",
+                        "{what}: give a number with unit, such as \"{}\", or leave `start` out to have it derived from the data",
                         example(kind)
                     ),
                 ));
             }
         }
-        let (start, conv) = self.literal(start_scalar, kind, check, &start_key)?;
         let lower = match &spec.lower {
-            Some(s) => Some(
-                self.literal(s, kind, Check::Any, &format!("{pkey}.lower"))?
-                    .0,
-            ),
+            Some(s) => Some(self.literal(s, kind, Check::Any, &format!("{pkey}.lower"))?),
             None => None,
         };
         let upper = match &spec.upper {
-            Some(s) => Some(
-                self.literal(s, kind, Check::Any, &format!("{pkey}.upper"))?
-                    .0,
-            ),
+            Some(s) => Some(self.literal(s, kind, Check::Any, &format!("{pkey}.upper"))?),
             None => None,
         };
+        let (start, conv) = match start_scalar {
+            Some(sc) => self.literal(sc, kind, check, &start_key)?,
+            None => {
+                // The reporting unit: `unit`, else that of a bound, else SI.
+                let conv = match &spec.unit {
+                    Some(u) => quantity::conversion(kind, Some(u.as_str()), &self.value_unit)
+                        .map_err(|m| {
+                            self.err(
+                                InputKind::UnknownUnit,
+                                &format!("{pkey}.unit"),
+                                format!("{m} (key '{pkey}.unit', a {})", kind.name()),
+                            )
+                        })?,
+                    None => match (&lower, &upper) {
+                        (Some((_, c)), _) | (None, Some((_, c))) => c.clone(),
+                        (None, None) => quantity::conversion(kind, None, &self.value_unit)
+                            .map_err(|m| self.err(InputKind::UnknownUnit, &pkey, m))?,
+                    },
+                };
+                (f64::NAN, conv)
+            }
+        };
+        let start_given = start_scalar.is_some();
+        let lower = lower.map(|l| l.0);
+        let upper = upper.map(|u| u.0);
         if let (Some(lo), Some(hi)) = (lower, upper) {
             if lo >= hi {
                 return Err(self.err(
@@ -651,9 +773,19 @@ impl<'a> Builder<'a> {
                 ),
             ));
         }
+        if !start_given && spec.fixed {
+            return Err(self.err(
+                InputKind::BadValue,
+                &format!("{pkey}.fixed"),
+                format!("parameter '{name}' is fixed but has no `start`: give the value it is held at as `start`"),
+            ));
+        }
+        // A missing start counts as positive for the transform rules: automatic starts of a
+        // log-scale parameter are positive.
+        let start_positive = !start_given || start > 0.0;
         let log = match spec.transform {
             Some(TransformName::Log) => {
-                if start <= 0.0 || lower.is_some_and(|lo| lo <= 0.0) {
+                if !start_positive || lower.is_some_and(|lo| lo <= 0.0) {
                     return Err(self.err(
                         InputKind::BadBounds,
                         &format!("{pkey}.transform"),
@@ -665,7 +797,7 @@ impl<'a> Builder<'a> {
             Some(TransformName::None) => false,
             None => {
                 matches!(kind, Kind::Diffusivity | Kind::Rate | Kind::Speed)
-                    && start > 0.0
+                    && start_positive
                     && lower.is_none_or(|lo| lo > 0.0)
             }
         };
@@ -687,6 +819,7 @@ impl<'a> Builder<'a> {
             unit_offset: conv.offset,
             kind,
             start,
+            start_given,
             lower,
             upper,
             free: !spec.fixed,
@@ -1275,7 +1408,7 @@ pub(super) fn build(file: &ExperimentFile, index: &SpanIndex, base: &Path) -> Re
     for d in &mut datasets {
         d.n_params = n_params;
     }
-    let params = b.params;
+    let params = std::mem::take(&mut b.params);
     let free = params.iter().filter(|p| p.free).count();
     let points: usize = datasets.iter().map(Dataset::len).sum();
     if points < free + 1 {
@@ -1296,9 +1429,17 @@ pub(super) fn build(file: &ExperimentFile, index: &SpanIndex, base: &Path) -> Re
         datasets,
         solver: solver_options(&file.solver, index)?,
         fit: fit_options(&file.fit, index)?,
+        derived: Vec::new(),
     };
-    // The model must make sense at the start values.
-    let start = exp.start_values();
+    let mut exp = exp;
+    exp.derived = derived_requests(&b, file, &exp)?;
+    // The model must make sense at the start values (pending automatic starts at a
+    // placeholder inside their bounds).
+    let start: Vec<f64> = exp
+        .parameters
+        .iter()
+        .map(|p| if p.start_given { p.start } else { p.placeholder() })
+        .collect();
     for d in &exp.datasets {
         if let Err(e) = d.model_for(&start) {
             return Err(Error::input(
@@ -1312,6 +1453,174 @@ pub(super) fn build(file: &ExperimentFile, index: &SpanIndex, base: &Path) -> Re
         }
     }
     Ok(exp)
+}
+
+/// A number with one of the units of a derived quantity's input, in SI.
+fn derived_number(
+    b: &Builder,
+    s: &Scalar,
+    units: &[(&str, f64)],
+    what: &str,
+    key: &str,
+) -> Result<f64> {
+    let (number, unit) = match s {
+        Scalar::Number(x) => (*x, None),
+        Scalar::Text(t) => match quantity::split_number(t) {
+            Some(w) => (w.number, w.unit),
+            None => {
+                return Err(b.err(
+                    InputKind::BadValue,
+                    key,
+                    format!("'{t}' is not a number with unit (for '{key}', a {what})"),
+                ))
+            }
+        },
+    };
+    if !number.is_finite() {
+        return Err(b.err(InputKind::NotFinite, key, format!("'{key}' must be finite")));
+    }
+    let names: Vec<&str> = units.iter().map(|u| u.0).collect();
+    let Some(unit) = unit else {
+        return Err(b.err(
+            InputKind::UnknownUnit,
+            key,
+            format!("give the unit of the {what} ({})", names.join(", ")),
+        ));
+    };
+    let squeezed: String = unit.chars().filter(|c| !c.is_whitespace() && *c != '*' && *c != '·').collect();
+    match units.iter().find(|u| u.0.replace(' ', "") == squeezed) {
+        Some((_, scale)) => Ok(number * scale),
+        None => Err(b.err(
+            InputKind::UnknownUnit,
+            key,
+            format!("unknown unit '{unit}' for the {what}: use one of {}", names.join(", ")),
+        )),
+    }
+}
+
+const DENSITY_UNITS: &[(&str, f64)] = &[("kg/m3", 1.0), ("g/cm3", 1e3), ("g/mL", 1e3), ("kg/L", 1e3)];
+const HEAT_CAPACITY_UNITS: &[(&str, f64)] = &[
+    ("J/(kg K)", 1.0),
+    ("J/kg/K", 1.0),
+    ("J/(g K)", 1e3),
+    ("J/g/K", 1e3),
+    ("kJ/(kg K)", 1e3),
+    ("kJ/kg/K", 1e3),
+];
+
+fn derived_requests(b: &Builder, file: &ExperimentFile, exp: &Experiment) -> Result<Vec<DerivedRequest>> {
+    let mut out = Vec::new();
+    for (name, spec) in &file.derived {
+        let key = format!("derived.{name}");
+        let k = |s: &str| format!("{key}.{s}");
+        let dataset = |b: &Builder| -> Result<usize> {
+            match &spec.dataset {
+                None => Ok(0),
+                Some(n) => exp.datasets.iter().position(|d| &d.name == n).ok_or_else(|| {
+                    let hint = suggest::did_you_mean(n, exp.datasets.iter().map(|d| d.name.as_str()));
+                    b.err(InputKind::BadValue, &k("dataset"), format!("no dataset is named '{n}'{hint}"))
+                }),
+            }
+        };
+        let needs = |field: &str, present: bool| -> Result<()> {
+            if present {
+                Ok(())
+            } else {
+                Err(b.err(InputKind::MissingKey, &k(field), format!("{key} needs `{field}`")))
+            }
+        };
+        let what = match spec.quantity {
+            DerivedName::Conductivity => {
+                let diffusivity = match &spec.diffusivity {
+                    Some(pname) => match exp.parameters.iter().position(|p| &p.name == pname) {
+                        Some(i) => i,
+                        None => {
+                            let hint = suggest::did_you_mean(pname, exp.parameters.iter().map(|p| p.name.as_str()));
+                            return Err(b.err(InputKind::UndefinedParameter, &k("diffusivity"), format!("no parameter is named '{pname}'{hint}")));
+                        }
+                    },
+                    None => match exp.datasets.first().and_then(Dataset::diffusivity_parameter) {
+                        Some(i) => i,
+                        None => {
+                            return Err(b.err(
+                                InputKind::MissingKey,
+                                &k("diffusivity"),
+                                "name the fitted diffusivity parameter (`diffusivity = \"alpha\"`)",
+                            ))
+                        }
+                    },
+                };
+                let pname = exp.parameters[diffusivity].name.clone();
+                if exp.parameters[diffusivity].kind != Kind::Diffusivity {
+                    return Err(b.err(InputKind::BadValue, &k("diffusivity"), format!("'{pname}' is not a diffusivity")));
+                }
+                needs("density", spec.density.is_some())?;
+                needs("heat_capacity", spec.heat_capacity.is_some())?;
+                let num = |s: &Option<Scalar>, units, what, field: &str| -> Result<f64> {
+                    match s {
+                        Some(s) => derived_number(b, s, units, what, &k(field)),
+                        None => Ok(0.0),
+                    }
+                };
+                let rho = num(&spec.density, DENSITY_UNITS, "density", "density")?;
+                let u_rho = num(&spec.density_uncertainty, DENSITY_UNITS, "density", "density_uncertainty")?;
+                let cp = num(&spec.heat_capacity, HEAT_CAPACITY_UNITS, "heat capacity", "heat_capacity")?;
+                let u_cp = num(&spec.heat_capacity_uncertainty, HEAT_CAPACITY_UNITS, "heat capacity", "heat_capacity_uncertainty")?;
+                for (v, field) in [(rho, "density"), (cp, "heat_capacity")] {
+                    if v <= 0.0 {
+                        return Err(b.err(InputKind::BadValue, &k(field), format!("{key}.{field} must be > 0")));
+                    }
+                }
+                for (v, field) in [(u_rho, "density_uncertainty"), (u_cp, "heat_capacity_uncertainty")] {
+                    if v < 0.0 {
+                        return Err(b.err(InputKind::BadValue, &k(field), format!("{key}.{field} must be ≥ 0")));
+                    }
+                }
+                DerivedWhat::Conductivity {
+                    diffusivity,
+                    density: (rho, u_rho),
+                    heat_capacity: (cp, u_cp),
+                }
+            }
+            DerivedName::EquilibriumTime => {
+                let fraction = spec.fraction.unwrap_or(0.95);
+                if !(fraction > 0.0 && fraction < 1.0) {
+                    return Err(b.err(InputKind::BadValue, &k("fraction"), format!("expected a fraction between 0 and 1 (such as 0.95), found {fraction}")));
+                }
+                DerivedWhat::EquilibriumTime {
+                    dataset: dataset(b)?,
+                    fraction,
+                }
+            }
+            DerivedName::FluxIn => {
+                needs("end", spec.end.is_some())?;
+                needs("times", spec.times.is_some())?;
+                let times = spec
+                    .times
+                    .iter()
+                    .flatten()
+                    .enumerate()
+                    .map(|(i, t)| b.literal(t, Kind::Time, Check::Positive, &format!("{key}.times[{i}]")).map(|x| x.0))
+                    .collect::<Result<Vec<f64>>>()?;
+                if times.is_empty() {
+                    return Err(b.err(InputKind::BadValue, &k("times"), "give at least one time"));
+                }
+                DerivedWhat::FluxIn {
+                    dataset: dataset(b)?,
+                    end: match spec.end {
+                        Some(EndWhich::Left) => End::Left,
+                        _ => End::Right,
+                    },
+                    times,
+                }
+            }
+        };
+        out.push(DerivedRequest {
+            name: name.clone(),
+            what,
+        });
+    }
+    Ok(out)
 }
 
 fn solver_options(s: &SolverSpec, index: &SpanIndex) -> Result<SolverOptions> {

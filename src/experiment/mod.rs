@@ -22,7 +22,9 @@ pub mod suggest;
 
 use std::path::Path;
 
-pub use build::{Dataset, Experiment, FitOptions, Parameter, Weighting};
+pub use build::{
+    Dataset, DerivedRequest, DerivedWhat, Experiment, FitOptions, Parameter, Weighting,
+};
 pub use quantity::Kind;
 
 use crate::error::{Error, InputKind, Location, Result};

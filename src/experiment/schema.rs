@@ -211,6 +211,57 @@ pub struct ExperimentFile {
     /// Fit options.
     #[serde(default)]
     pub fit: FitSpec,
+    /// Quantities derived from the fitted parameters, with propagated uncertainty.
+    #[serde(default)]
+    pub derived: BTreeMap<String, DerivedSpec>,
+}
+
+/// What a `[derived.NAME]` table computes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum DerivedName {
+    /// Thermal conductivity k = α ρ c_p.
+    Conductivity,
+    /// Time for a run to reach a fraction of its equilibrium uptake.
+    EquilibriumTime,
+    /// Flux in through an end at given times.
+    FluxIn,
+}
+
+/// `[derived.NAME]`.
+#[derive(Debug, Clone, PartialEq, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct DerivedSpec {
+    /// What to compute.
+    pub quantity: DerivedName,
+    /// Conductivity: the diffusivity parameter (default: the sample's diffusivity).
+    pub diffusivity: Option<String>,
+    /// Conductivity: density with unit (`kg/m3`, `g/cm3`).
+    pub density: Option<Scalar>,
+    /// Conductivity: standard uncertainty of the density.
+    pub density_uncertainty: Option<Scalar>,
+    /// Conductivity: specific heat capacity with unit (`J/(kg K)`, `J/(g K)`, `kJ/(kg K)`).
+    pub heat_capacity: Option<Scalar>,
+    /// Conductivity: standard uncertainty of the heat capacity.
+    pub heat_capacity_uncertainty: Option<Scalar>,
+    /// Equilibrium time and flux: the dataset (run) whose model is used (default: the first).
+    pub dataset: Option<String>,
+    /// Equilibrium time: the fraction of the equilibrium change (default 0.95).
+    pub fraction: Option<f64>,
+    /// Flux: the end, `left` or `right`.
+    pub end: Option<EndWhich>,
+    /// Flux: the times, with unit.
+    pub times: Option<Vec<Scalar>>,
+}
+
+/// An end by name.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum EndWhich {
+    /// x = 0 or the inner radius.
+    Left,
+    /// x = L or the outer radius.
+    Right,
 }
 
 /// Sample shape.
@@ -343,8 +394,10 @@ pub enum TransformName {
 #[derive(Debug, Clone, PartialEq, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct ParameterSpec {
-    /// Start value with unit.
-    pub start: Scalar,
+    /// Start value with unit; omitted: derived from the data (see `analysis::starts`).
+    pub start: Option<Scalar>,
+    /// Reporting unit when `start` is omitted (default: the unit of `lower`/`upper`, else SI).
+    pub unit: Option<String>,
     /// Lower bound.
     pub lower: Option<Scalar>,
     /// Upper bound.

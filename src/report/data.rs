@@ -5,6 +5,7 @@
 //! experiment file), with the SI value beside each estimate for scripts. A number that is not
 //! finite is written as `null`, never as NaN or infinity.
 
+use crate::analysis::shortcuts::ShortcutEstimate;
 use crate::analysis::Analysis;
 use crate::experiment::quantity::value_unit;
 use crate::experiment::Experiment;
@@ -42,6 +43,29 @@ pub struct Report {
     pub datasets: Vec<DatasetSummary>,
     /// Warnings in plain words.
     pub warnings: Vec<String>,
+    /// Classic shortcut estimates of the diffusivity, for comparison with the fit.
+    pub shortcut_estimates: Vec<ShortcutRow>,
+    /// Ranking of this model against the variants given with `--compare`, when any.
+    pub comparison: Option<ComparisonReport>,
+    /// Quantities derived from the fit (`[derived]` in the experiment file).
+    pub derived: Vec<DerivedRow>,
+}
+
+/// A derived quantity.
+#[derive(Debug, Clone, Serialize)]
+pub struct DerivedRow {
+    /// Name (the `[derived.NAME]` table; a flux adds its time: `flux[1 h]`).
+    pub name: String,
+    /// What it is.
+    pub description: String,
+    /// Unit of `value` and `std_uncertainty`.
+    pub unit: String,
+    /// Value (null when it could not be computed: see `unavailable`).
+    pub value: Option<f64>,
+    /// Standard uncertainty by the delta method (fit covariance and given input uncertainties).
+    pub std_uncertainty: Option<f64>,
+    /// Why it could not be computed.
+    pub unavailable: Option<String>,
 }
 
 /// One parameter.
@@ -74,6 +98,10 @@ pub struct ParameterRow {
     pub estimate_si: Option<f64>,
     /// Standard error in SI.
     pub std_error_si: Option<f64>,
+    /// Start value of the fit, in `unit`.
+    pub start: Option<f64>,
+    /// Where the start value came from: `"experiment file"`, or how it was derived.
+    pub start_source: String,
 }
 
 /// An interval in the parameter's unit.
@@ -219,6 +247,12 @@ impl Report {
                 }),
                 estimate_si: finite(p.estimate),
                 std_error_si: p.std_error.and_then(finite),
+                start: in_unit(e, k, e.parameters[k].start),
+                start_source: analysis
+                    .start_notes
+                    .iter()
+                    .find(|n| n.parameter == k)
+                    .map_or_else(|| "experiment file".to_string(), |n| n.how.clone()),
             })
             .collect();
         let g = &f.goodness;
@@ -314,6 +348,178 @@ impl Report {
             correlation,
             datasets,
             warnings,
+            shortcut_estimates: shortcut_rows(e, &analysis.shortcuts, Some(&f.estimates)),
+            comparison: None,
+            derived: analysis
+                .derived
+                .iter()
+                .map(|d| DerivedRow {
+                    name: d.name.clone(),
+                    description: d.description.clone(),
+                    unit: d.unit.clone(),
+                    value: d.value.as_ref().ok().and_then(|v| finite(v.0)),
+                    std_uncertainty: d.value.as_ref().ok().and_then(|v| finite(v.1)),
+                    unavailable: d.value.as_ref().err().cloned(),
+                })
+                .collect(),
+        }
+    }
+}
+
+/// One shortcut estimate, beside the fitted value of the parameter it estimates.
+#[derive(Debug, Clone, Serialize)]
+pub struct ShortcutRow {
+    /// Dataset name.
+    pub dataset: String,
+    /// Method (`half-time`, `initial sqrt(t) slope`, `erfc linearisation at t = 4 h`, ...).
+    pub method: String,
+    /// Parameter estimated (null when the run's diffusivity is not a parameter).
+    pub parameter: Option<String>,
+    /// Unit of `estimate` and `fitted` (the parameter's; m2/s when there is none).
+    pub unit: String,
+    /// The shortcut estimate (null when the method could not be applied: see `unavailable`).
+    pub estimate: Option<f64>,
+    /// The estimate in SI (m²/s).
+    pub estimate_si: Option<f64>,
+    /// The fitted value of the same parameter.
+    pub fitted: Option<f64>,
+    /// estimate / fitted.
+    pub ratio_to_fit: Option<f64>,
+    /// Intermediate results of the method (half-time, slope...), SI.
+    pub detail: Option<String>,
+    /// Why the method could not be applied, when it could not.
+    pub unavailable: Option<String>,
+    /// What the method assumes.
+    pub assumptions: Vec<String>,
+    /// Where this experiment departs from those assumptions.
+    pub caveats: Vec<String>,
+}
+
+/// The report rows of shortcut estimates, beside the fitted values (SI, one per parameter)
+/// when there are any.
+pub fn shortcut_rows(
+    e: &Experiment,
+    shortcuts: &[ShortcutEstimate],
+    fitted: Option<&[f64]>,
+) -> Vec<ShortcutRow> {
+    shortcuts
+        .iter()
+        .map(|s| {
+            let param = s.parameter.map(|k| &e.parameters[k]);
+            let to_unit = |si: f64| match param {
+                Some(p) => finite(p.to_unit(si)),
+                None => finite(si),
+            };
+            let fitted_si = s.parameter.zip(fitted).map(|(k, f)| f[k]);
+            let est = s.estimate();
+            ShortcutRow {
+                dataset: e.datasets[s.dataset].name.clone(),
+                method: s.method.label(),
+                parameter: param.map(|p| p.name.clone()),
+                unit: param.map_or_else(|| "m2/s".to_string(), |p| p.unit.clone()),
+                estimate: est.and_then(to_unit),
+                estimate_si: est.and_then(finite),
+                fitted: fitted_si.and_then(to_unit),
+                ratio_to_fit: est.zip(fitted_si).and_then(|(a, b)| finite(a / b)),
+                detail: s.detail.clone(),
+                unavailable: s.value.as_ref().err().cloned(),
+                assumptions: s.assumptions.clone(),
+                caveats: s.caveats.clone(),
+            }
+        })
+        .collect()
+}
+
+/// The model comparison.
+#[derive(Debug, Clone, Serialize)]
+pub struct ComparisonReport {
+    /// The models, best first.
+    pub models: Vec<ComparedModel>,
+    /// The verdict in words.
+    pub verdict: String,
+}
+
+/// One model of the comparison.
+#[derive(Debug, Clone, Serialize)]
+pub struct ComparedModel {
+    /// Title of its experiment file, else the file name.
+    pub name: String,
+    /// Its experiment file.
+    pub file: String,
+    /// Free parameters.
+    pub n_free: usize,
+    /// Residual sum of squares under the common weighting (that of this report's model).
+    pub rss: Option<f64>,
+    /// AICc.
+    pub aicc: Option<f64>,
+    /// AICc minus the best AICc.
+    pub delta_aicc: Option<f64>,
+    /// Akaike weight.
+    pub akaike_weight: Option<f64>,
+    /// How many times more likely the best model is than this one.
+    pub evidence_ratio: Option<f64>,
+    /// True when its fit converged.
+    pub converged: bool,
+    /// Its fitted parameters: name, estimate and standard error in the parameter's unit.
+    pub parameters: Vec<ComparedParameter>,
+}
+
+/// A fitted parameter of a compared model.
+#[derive(Debug, Clone, Serialize)]
+pub struct ComparedParameter {
+    /// Name.
+    pub name: String,
+    /// Unit.
+    pub unit: String,
+    /// Estimate.
+    pub estimate: Option<f64>,
+    /// Standard error.
+    pub std_error: Option<f64>,
+}
+
+impl ComparisonReport {
+    /// The report section for `comparison` of `models` (in the order given to
+    /// [`crate::analysis::compare::compare`]).
+    pub fn new(
+        comparison: &crate::analysis::compare::Comparison,
+        models: &[&Analysis],
+    ) -> ComparisonReport {
+        let rows = comparison
+            .ranked
+            .iter()
+            .filter_map(|r| {
+                let i = comparison.names.iter().position(|n| *n == r.name)?;
+                let a = models[i];
+                let e = &a.experiment;
+                Some(ComparedModel {
+                    name: r.name.clone(),
+                    file: e.file.display().to_string(),
+                    n_free: comparison.free[i],
+                    rss: finite(comparison.rss[i]),
+                    aicc: finite(r.aicc),
+                    delta_aicc: finite(r.delta),
+                    akaike_weight: finite(r.weight),
+                    evidence_ratio: finite(r.evidence_ratio),
+                    converged: a.fit.stop.converged(),
+                    parameters: a
+                        .fit
+                        .parameters
+                        .iter()
+                        .enumerate()
+                        .filter(|(_, p)| p.free)
+                        .map(|(k, p)| ComparedParameter {
+                            name: p.name.clone(),
+                            unit: e.parameters[k].unit.clone(),
+                            estimate: in_unit(e, k, p.estimate),
+                            std_error: p.std_error.and_then(|s| diff_in_unit(e, k, s)),
+                        })
+                        .collect(),
+                })
+            })
+            .collect();
+        ComparisonReport {
+            models: rows,
+            verdict: comparison.verdict.clone(),
         }
     }
 }

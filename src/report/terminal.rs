@@ -1,6 +1,6 @@
 //! The summary table printed to the terminal after a fit.
 
-use super::data::Report;
+use super::data::{Report, ShortcutRow};
 use std::io::{self, Write};
 
 /// A number in a fixed, readable format (significant digits, exponent when needed).
@@ -33,7 +33,46 @@ pub fn num_with_error(x: Option<f64>, se: Option<f64>) -> String {
     }
 }
 
-/// Write the summary: parameters, fit quality, residual verdicts, warnings.
+/// The shortcut estimates as a short table, with the caveats each one carries.
+pub fn write_shortcuts(rows: &[ShortcutRow], out: &mut dyn Write) -> io::Result<()> {
+    if rows.is_empty() {
+        return Ok(());
+    }
+    writeln!(out)?;
+    writeln!(
+        out,
+        "shortcut estimates (textbook formulas under ideal conditions, for comparison):"
+    )?;
+    let mut caveats: Vec<&str> = Vec::new();
+    for r in rows {
+        let what = match (&r.parameter, r.estimate) {
+            (Some(p), Some(v)) => {
+                let ratio = r
+                    .ratio_to_fit
+                    .map_or(String::new(), |q| format!("  ({} × the fit)", num(Some(q))));
+                format!("{p} = {} {}{ratio}", num(Some(v)), r.unit)
+            }
+            (None, Some(v)) => format!("D = {} {}", num(Some(v)), r.unit),
+            (_, None) => format!(
+                "not applicable: {}",
+                r.unavailable.as_deref().unwrap_or("no estimate")
+            ),
+        };
+        writeln!(out, "  {:<14} {:<36} {what}", r.dataset, r.method)?;
+        for c in &r.caveats {
+            if !caveats.contains(&c.as_str()) {
+                caveats.push(c);
+            }
+        }
+    }
+    for c in caveats {
+        writeln!(out, "  note: {c}")?;
+    }
+    Ok(())
+}
+
+/// Write the summary: parameters, shortcut estimates, fit quality, residual verdicts,
+/// warnings.
 pub fn write_summary(report: &Report, out: &mut dyn Write) -> io::Result<()> {
     if let Some(t) = &report.title {
         writeln!(out, "{t}")?;
@@ -101,6 +140,30 @@ pub fn write_summary(report: &Report, out: &mut dyn Write) -> io::Result<()> {
             "* interval formed on the parameter's fitted (log or bounded) scale"
         )?;
     }
+    if !report.derived.is_empty() {
+        writeln!(out)?;
+        writeln!(out, "derived quantities:")?;
+        for d in &report.derived {
+            match d.value {
+                Some(_) => writeln!(
+                    out,
+                    "  {:<20} {} ± {} {}   {}",
+                    d.name,
+                    num(d.value),
+                    num(d.std_uncertainty),
+                    d.unit,
+                    d.description
+                )?,
+                None => writeln!(
+                    out,
+                    "  {:<20} not available: {}",
+                    d.name,
+                    d.unavailable.as_deref().unwrap_or("")
+                )?,
+            }
+        }
+    }
+    write_shortcuts(&report.shortcut_estimates, out)?;
     let f = &report.fit;
     writeln!(out)?;
     writeln!(
@@ -133,6 +196,28 @@ pub fn write_summary(report: &Report, out: &mut dyn Write) -> io::Result<()> {
             "dataset {} ({} points): {}",
             d.name, d.n_points, d.verdict
         )?;
+    }
+    if let Some(c) = &report.comparison {
+        writeln!(out)?;
+        writeln!(
+            out,
+            "model comparison (AICc, same data and weighting):\n  {:<40} {:>6} {:>12} {:>9} {:>8} {:>10}",
+            "model", "free", "AICc", "ΔAICc", "weight", "evidence"
+        )?;
+        for m in &c.models {
+            writeln!(
+                out,
+                "  {:<40} {:>6} {:>12} {:>9} {:>8} {:>10}{}",
+                m.name,
+                m.n_free,
+                num(m.aicc),
+                num(m.delta_aicc),
+                num(m.akaike_weight),
+                num(m.evidence_ratio),
+                if m.converged { "" } else { "  (did not converge)" }
+            )?;
+        }
+        writeln!(out, "  {}", c.verdict)?;
     }
     if !report.warnings.is_empty() {
         writeln!(out)?;

@@ -1,0 +1,306 @@
+//! Quantities derived from the fitted parameters (`[derived]` in the experiment file), with
+//! their standard uncertainty by the delta method ([`crate::stats::derived`]):
+//!
+//! - thermal conductivity `k = α ρ c_p` (W/(m K)), with ρ and c_p given with their standard
+//!   uncertainties (independent of the fit);
+//! - the time a run takes to reach a fraction (default 95 %) of its equilibrium uptake, from
+//!   the fitted model's fractional uptake `(M_t − M_0)/(M_∞ − M_0)`;
+//! - the flux in through an end at given times, `J = −D ∂u/∂x` at that face (positive in).
+//!
+//! The model quantities are functions of the parameters through a forward solve. So that the
+//! finite differences of the delta method see a smooth function, every perturbed solve replays
+//! the step sequence of the solve at the estimate ([`StepPlan::Replay`]).
+
+use super::Analysis;
+use crate::error::{Error, Result};
+use crate::experiment::{DerivedWhat, Experiment};
+use crate::model::End;
+use crate::solver::{Observable, Request, Solver, StepPlan};
+use crate::stats::derived::ExtraInput;
+use std::cell::RefCell;
+
+/// One derived value.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Derived {
+    /// Name of the `[derived.NAME]` table (with the time for a flux: `flux[1 h]`).
+    pub name: String,
+    /// What it is, in words (`k = alpha rho c_p`).
+    pub description: String,
+    /// Unit label of `value` and `std_uncertainty`.
+    pub unit: String,
+    /// The value, in `unit`, or why it could not be computed.
+    pub value: std::result::Result<(f64, f64), String>,
+}
+
+/// Compute every derived quantity the experiment asks for.
+pub fn derive_all(analysis: &Analysis) -> Vec<Derived> {
+    let e = &analysis.experiment;
+    let mut out = Vec::new();
+    for request in &e.derived {
+        match &request.what {
+            DerivedWhat::Conductivity {
+                diffusivity,
+                density,
+                heat_capacity,
+            } => {
+                let i = *diffusivity;
+                let extras = [
+                    ExtraInput {
+                        name: "rho".into(),
+                        value: density.0,
+                        std_uncertainty: density.1,
+                    },
+                    ExtraInput {
+                        name: "c_p".into(),
+                        value: heat_capacity.0,
+                        std_uncertainty: heat_capacity.1,
+                    },
+                ];
+                let value = analysis
+                    .fit
+                    .derived(|theta, z| theta[i] * z[0] * z[1], &extras)
+                    .map(|d| (d.value, d.std_uncertainty))
+                    .map_err(|err| err.to_string());
+                out.push(Derived {
+                    name: request.name.clone(),
+                    description: format!(
+                        "thermal conductivity k = {} rho c_p (rho = {} kg/m3, c_p = {} J/(kg K))",
+                        e.parameters[i].name, density.0, heat_capacity.0
+                    ),
+                    unit: "W/(m K)".into(),
+                    value,
+                });
+            }
+            DerivedWhat::EquilibriumTime { dataset, fraction } => {
+                let d = &e.datasets[*dataset];
+                let value = equilibrium_time(analysis, *dataset, *fraction)
+                    .map_err(|err| err.to_string());
+                let (scale, unit) = match &value {
+                    Ok((t, _)) => time_unit(*t),
+                    Err(_) => (1.0, "s"),
+                };
+                out.push(Derived {
+                    name: request.name.clone(),
+                    description: format!(
+                        "time for run '{}' to reach {} % of its equilibrium uptake",
+                        d.name,
+                        fraction * 100.0
+                    ),
+                    unit: unit.into(),
+                    value: value.map(|(v, u)| (v / scale, u / scale)),
+                });
+            }
+            DerivedWhat::FluxIn {
+                dataset,
+                end,
+                times,
+            } => {
+                let d = &e.datasets[*dataset];
+                let results = flux_in(analysis, *dataset, *end, times);
+                for (t, r) in times.iter().zip(results) {
+                    let (scale, tu) = time_unit(*t);
+                    out.push(Derived {
+                        name: format!("{}[{} {tu}]", request.name, trim(t / scale)),
+                        description: format!(
+                            "flux in through the {} end of run '{}' at t = {} {tu} (positive into the sample)",
+                            match end {
+                                End::Left => "left",
+                                End::Right => "right",
+                            },
+                            d.name,
+                            trim(t / scale)
+                        ),
+                        unit: format!("{}·m/s", e.value_unit),
+                        value: r.map(|(v, u)| {
+                            let s = flux_scale(e);
+                            (v / s, u / s)
+                        }),
+                    });
+                }
+            }
+        }
+    }
+    out
+}
+
+fn trim(x: f64) -> String {
+    let s = format!("{x:.6}");
+    s.trim_end_matches('0').trim_end_matches('.').to_string()
+}
+
+/// A readable unit for a time in s: (seconds per unit, label).
+fn time_unit(t: f64) -> (f64, &'static str) {
+    if t >= 2.0 * 86400.0 {
+        (86400.0, "d")
+    } else if t >= 7200.0 {
+        (3600.0, "h")
+    } else if t >= 120.0 {
+        (60.0, "min")
+    } else {
+        (1.0, "s")
+    }
+}
+
+/// SI per (value unit · m/s): the value unit's scale.
+fn flux_scale(e: &Experiment) -> f64 {
+    crate::experiment::quantity::value_unit(&e.value_unit).diff_to_si(1.0)
+}
+
+/// A model quantity g(θ) for the delta method: solves with the step sequence of the solve at
+/// the estimate.
+struct Replayed<'a> {
+    experiment: &'a Experiment,
+    dataset: usize,
+    request: Request,
+    solver: RefCell<Solver>,
+    schedule: Vec<f64>,
+}
+
+impl<'a> Replayed<'a> {
+    fn new(analysis: &'a Analysis, dataset: usize, request: Request) -> Result<Self> {
+        let e = &*analysis.experiment;
+        let mut solver = Solver::new(e.solver.clone())?;
+        let model = e.datasets[dataset].model_for(&analysis.fit.estimates)?;
+        solver.solve(&model, &request)?;
+        let schedule = solver.schedule().to_vec();
+        Ok(Replayed {
+            experiment: e,
+            dataset,
+            request,
+            solver: RefCell::new(solver),
+            schedule,
+        })
+    }
+
+    /// Series `o` of the solution at `theta`, or NaNs when the model cannot be solved there.
+    fn series(&self, theta: &[f64], o: usize) -> Vec<f64> {
+        let n = self.request.times.len();
+        let Ok(model) = self.experiment.datasets[self.dataset].model_for(theta) else {
+            return vec![f64::NAN; n];
+        };
+        let mut solver = self.solver.borrow_mut();
+        match solver.solve_with(&model, &self.request, StepPlan::Replay(&self.schedule)) {
+            Ok(sol) => sol.series(o).to_vec(),
+            Err(_) => vec![f64::NAN; n],
+        }
+    }
+}
+
+/// Time (s) at which the fractional uptake of a run first reaches `fraction`, and its standard
+/// uncertainty.
+fn equilibrium_time(analysis: &Analysis, dataset: usize, fraction: f64) -> Result<(f64, f64)> {
+    let e = &analysis.experiment;
+    let d = &e.datasets[dataset];
+    let model = d.model_for(&analysis.fit.estimates)?;
+    let mut solver = Solver::new(e.solver.clone())?;
+    let t_last = d.request.times.iter().copied().fold(0.0, f64::max);
+    if t_last <= 0.0 {
+        return Err(Error::Fit("the run has no positive times".into()));
+    }
+    // Bracket the crossing on a coarse logarithmic grid, extending it if need be.
+    let mut end = 10.0 * t_last;
+    let mut bracket = None;
+    for _ in 0..8 {
+        let times: Vec<f64> = (0..=120)
+            .map(|k| end * 1e-7f64.powf(1.0 - k as f64 / 120.0))
+            .collect();
+        let request = Request {
+            times: times.clone(),
+            observables: vec![Observable::FractionalUptake],
+        };
+        let f = solver.solve(&model, &request)?.series(0).to_vec();
+        if f.iter().any(|v| !v.is_finite()) {
+            return Err(Error::Fit(
+                "the run's model has no finite equilibrium (fractional uptake undefined)".into(),
+            ));
+        }
+        if f[0] >= fraction {
+            return Err(Error::Fit(format!(
+                "the model is past {} % already at t = {:e} s",
+                fraction * 100.0,
+                times[0]
+            )));
+        }
+        if let Some(k) = f.iter().position(|&v| v >= fraction) {
+            bracket = Some((times[k - 1], times[k]));
+            break;
+        }
+        end *= 100.0;
+    }
+    let Some((a, b)) = bracket else {
+        return Err(Error::Fit(format!(
+            "the model does not reach {} % of its equilibrium within {:e} s",
+            fraction * 100.0,
+            end
+        )));
+    };
+    // Fine times across the bracket (with margins, so a perturbed crossing stays inside).
+    let (lo, hi) = (a * 0.8, b * 1.25);
+    let times: Vec<f64> = (0..=96)
+        .map(|k| lo * (hi / lo).powf(k as f64 / 96.0))
+        .collect();
+    let request = Request {
+        times: times.clone(),
+        observables: vec![Observable::FractionalUptake],
+    };
+    let replayed = Replayed::new(analysis, dataset, request)?;
+    let crossing = |theta: &[f64], _: &[f64]| -> f64 {
+        let f = replayed.series(theta, 0);
+        for k in 1..f.len() {
+            if f[k] >= fraction && f[k - 1] < fraction {
+                let w = (fraction - f[k - 1]) / (f[k] - f[k - 1]);
+                return times[k - 1] + w * (times[k] - times[k - 1]);
+            }
+        }
+        f64::NAN
+    };
+    let v = analysis.fit.derived(crossing, &[])?;
+    if !(v.value.is_finite() && v.std_uncertainty.is_finite()) {
+        return Err(Error::Fit(
+            "the crossing time or its uncertainty is not finite".into(),
+        ));
+    }
+    Ok((v.value, v.std_uncertainty))
+}
+
+/// Flux in (SI) through `end` of a run at each time, with standard uncertainties.
+fn flux_in(
+    analysis: &Analysis,
+    dataset: usize,
+    end: End,
+    times: &[f64],
+) -> Vec<std::result::Result<(f64, f64), String>> {
+    let mut sorted = times.to_vec();
+    sorted.sort_by(f64::total_cmp);
+    sorted.dedup();
+    let request = Request {
+        times: sorted.clone(),
+        observables: vec![Observable::FluxIn(end)],
+    };
+    let replayed = match Replayed::new(analysis, dataset, request) {
+        Ok(r) => r,
+        Err(err) => return times.iter().map(|_| Err(err.to_string())).collect(),
+    };
+    times
+        .iter()
+        .map(|t| {
+            let k = sorted
+                .iter()
+                .position(|s| s == t)
+                .ok_or_else(|| "time not found".to_string())?;
+            let g = |theta: &[f64], _: &[f64]| replayed.series(theta, 0)[k];
+            analysis
+                .fit
+                .derived(g, &[])
+                .map(|d| (d.value, d.std_uncertainty))
+                .map_err(|err| err.to_string())
+                .and_then(|v| {
+                    if v.0.is_finite() && v.1.is_finite() {
+                        Ok(v)
+                    } else {
+                        Err("the flux or its uncertainty is not finite".into())
+                    }
+                })
+        })
+        .collect()
+}

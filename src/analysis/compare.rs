@@ -32,10 +32,10 @@ pub struct Comparison {
 /// A model's display name.
 pub fn model_name(a: &Analysis) -> String {
     a.experiment.title.clone().unwrap_or_else(|| {
-        a.experiment
-            .file
-            .file_name()
-            .map_or_else(|| a.experiment.file.display().to_string(), |f| f.to_string_lossy().into())
+        a.experiment.file.file_name().map_or_else(
+            || a.experiment.file.display().to_string(),
+            |f| f.to_string_lossy().into(),
+        )
     })
 }
 
@@ -81,7 +81,11 @@ pub fn compare(models: &[&Analysis]) -> Result<Comparison> {
                 .zip(&a.predictions[d])
                 .zip(&rds.sigma)
                 .map(|((y, f), sigma)| {
-                    let w = if sigma.is_finite() && *sigma > 0.0 { *sigma } else { 1.0 };
+                    let w = if sigma.is_finite() && *sigma > 0.0 {
+                        *sigma
+                    } else {
+                        1.0
+                    };
                     ((y - f) / (w * s_d)).powi(2)
                 })
                 .sum::<f64>();

@@ -73,8 +73,8 @@ pub fn derive_all(analysis: &Analysis) -> Vec<Derived> {
             }
             DerivedWhat::EquilibriumTime { dataset, fraction } => {
                 let d = &e.datasets[*dataset];
-                let value = equilibrium_time(analysis, *dataset, *fraction)
-                    .map_err(|err| err.to_string());
+                let value =
+                    equilibrium_time(analysis, *dataset, *fraction).map_err(|err| err.to_string());
                 let (scale, unit) = match &value {
                     Ok((t, _)) => time_unit(*t),
                     Err(_) => (1.0, "s"),
@@ -98,7 +98,7 @@ pub fn derive_all(analysis: &Analysis) -> Vec<Derived> {
                 let d = &e.datasets[*dataset];
                 let results = flux_in(analysis, *dataset, *end, times);
                 for (t, r) in times.iter().zip(results) {
-                    let (scale, tu) = time_unit(*t);
+                    let (scale, tu) = label_unit(*t);
                     out.push(Derived {
                         name: format!("{}[{} {tu}]", request.name, trim(t / scale)),
                         description: format!(
@@ -135,6 +135,19 @@ fn time_unit(t: f64) -> (f64, &'static str) {
     } else if t >= 7200.0 {
         (3600.0, "h")
     } else if t >= 120.0 {
+        (60.0, "min")
+    } else {
+        (1.0, "s")
+    }
+}
+
+/// The unit in which a time (s) reads as the shortest number: h or min when it is a whole
+/// number of them, else s.
+fn label_unit(t: f64) -> (f64, &'static str) {
+    let whole = |x: f64| (x - x.round()).abs() < 1e-9 * x.abs().max(1.0);
+    if t >= 3600.0 && whole(t / 3600.0) {
+        (3600.0, "h")
+    } else if t >= 60.0 && whole(t / 60.0) {
         (60.0, "min")
     } else {
         (1.0, "s")

@@ -89,7 +89,8 @@ pub fn parameter_specs(experiment: &Experiment, start: &[f64]) -> Vec<ParamSpec>
 /// Fit an experiment. Start values the experiment file leaves out are chosen first
 /// ([`starts::complete`]).
 pub fn analyse(experiment: Arc<Experiment>, options: &AnalysisOptions) -> Result<Analysis> {
-    let shortcut_list = shortcuts::estimate_all(&experiment, &starts::values_for_models(&experiment));
+    let shortcut_list =
+        shortcuts::estimate_all(&experiment, &starts::values_for_models(&experiment));
     let (experiment, start_notes) = if experiment.pending_starts().is_empty() {
         (experiment, Vec::new())
     } else {

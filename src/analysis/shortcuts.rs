@@ -17,12 +17,12 @@
 //! departs from them (surface resistance, a non-uniform start, volume terms), in plain words.
 //! An estimator that cannot be applied to the data says why instead of giving a number.
 
+use crate::analytic::sheet::Faces;
 use crate::experiment::{Dataset, Experiment};
 use crate::model::{EndCondition, Initial, Model, Shape, Signal};
 use crate::shortcuts::angstrom::{self, Drift};
 use crate::shortcuts::uptake::{self, Geometry, Plateau};
 use crate::shortcuts::{fit_line, permeation, profile};
-use crate::analytic::sheet::Faces;
 use crate::solver::Observable;
 
 /// The shortcut methods.
@@ -111,7 +111,11 @@ pub struct ShortcutEstimate {
 impl ShortcutEstimate {
     /// The estimate, when the method could be applied.
     pub fn estimate(&self) -> Option<f64> {
-        self.value.as_ref().ok().copied().filter(|d| d.is_finite() && *d > 0.0)
+        self.value
+            .as_ref()
+            .ok()
+            .copied()
+            .filter(|d| d.is_finite() && *d > 0.0)
     }
 }
 
@@ -157,10 +161,17 @@ fn for_dataset(index: usize, d: &Dataset, model: &Model) -> Vec<ShortcutEstimate
         caveats,
     };
     let single_layer = model.geometry.layers.len() == 1;
-    let thickness = model.geometry.layers.iter().map(|l| l.thickness).sum::<f64>();
+    let thickness = model
+        .geometry
+        .layers
+        .iter()
+        .map(|l| l.thickness)
+        .sum::<f64>();
     match obs.as_slice() {
-        [Observable::Amount | Observable::AmountChange | Observable::Mean | Observable::FractionalUptake] =>
-        {
+        [Observable::Amount
+        | Observable::AmountChange
+        | Observable::Mean
+        | Observable::FractionalUptake] => {
             if !single_layer || model.geometry.inner_radius > 0.0 {
                 return Vec::new();
             }
@@ -186,13 +197,7 @@ fn for_dataset(index: usize, d: &Dataset, model: &Model) -> Vec<ShortcutEstimate
             let (y0, base_note) = match baseline(&t, &y, baseline_known) {
                 Ok(b) => b,
                 Err(why) => {
-                    return vec![make(
-                        Method::HalfTime,
-                        Err(why),
-                        None,
-                        Vec::new(),
-                        caveats,
-                    )]
+                    return vec![make(Method::HalfTime, Err(why), None, Vec::new(), caveats)]
                 }
             };
             let m: Vec<f64> = y.iter().map(|v| v - y0).collect();
@@ -281,9 +286,7 @@ fn for_dataset(index: usize, d: &Dataset, model: &Model) -> Vec<ShortcutEstimate
                 ),
             }]
         }
-        many if !many.is_empty()
-            && many.iter().all(|o| matches!(o, Observable::ValueAt(_))) =>
-        {
+        many if !many.is_empty() && many.iter().all(|o| matches!(o, Observable::ValueAt(_))) => {
             let positions: Vec<f64> = many
                 .iter()
                 .map(|o| match o {
@@ -340,9 +343,7 @@ fn general_caveats(model: &Model) -> Vec<String> {
         .iter()
         .any(|l| !l.diffusivity.is_constant())
     {
-        c.push(
-            "D depends on concentration in the model; the method gives an average D".into(),
-        );
+        c.push("D depends on concentration in the model; the method gives an average D".into());
     }
     if let Initial::Table(_) = model.initial {
         c.push("the initial state is not uniform".into());
@@ -396,10 +397,9 @@ fn uptake_geometry(model: &Model, thickness: f64) -> Option<(Geometry, EndCondit
             Geometry::Cylinder { radius: thickness },
             model.right.clone(),
         )),
-        Shape::Sphere if exposed(&model.right) => Some((
-            Geometry::Sphere { radius: thickness },
-            model.right.clone(),
-        )),
+        Shape::Sphere if exposed(&model.right) => {
+            Some((Geometry::Sphere { radius: thickness }, model.right.clone()))
+        }
         _ => None,
     }
 }
@@ -548,7 +548,8 @@ fn profile_rows(
 ) -> Vec<Row> {
     // The exposed face: the end with a value or a transfer condition, else (a deposit
     // spreading from a sealed face) the left one.
-    let active = |e: &EndCondition| matches!(e, EndCondition::Value(_) | EndCondition::Transfer { .. });
+    let active =
+        |e: &EndCondition| matches!(e, EndCondition::Value(_) | EndCondition::Transfer { .. });
     let (from_left, deposit) = if active(&model.left) {
         (true, false)
     } else if active(&model.right) {

@@ -40,7 +40,13 @@ pub fn values_for_models(experiment: &Experiment) -> Vec<f64> {
     experiment
         .parameters
         .iter()
-        .map(|p| if p.start.is_finite() { p.start } else { p.placeholder() })
+        .map(|p| {
+            if p.start.is_finite() {
+                p.start
+            } else {
+                p.placeholder()
+            }
+        })
         .collect()
 }
 
@@ -49,12 +55,20 @@ fn inside(p: &Parameter, v: f64) -> f64 {
     let mut v = v;
     if let Some(lo) = p.lower {
         if v <= lo {
-            v = if p.log && lo > 0.0 { lo * 1.5 } else { lo + 1e-3 * lo.abs().max(1e-300) };
+            v = if p.log && lo > 0.0 {
+                lo * 1.5
+            } else {
+                lo + 1e-3 * lo.abs().max(1e-300)
+            };
         }
     }
     if let Some(hi) = p.upper {
         if v >= hi {
-            v = if p.log && hi > 0.0 { hi / 1.5 } else { hi - 1e-3 * hi.abs().max(1e-300) };
+            v = if p.log && hi > 0.0 {
+                hi / 1.5
+            } else {
+                hi - 1e-3 * hi.abs().max(1e-300)
+            };
         }
     }
     v
@@ -138,7 +152,12 @@ pub fn complete(
             let reasons: Vec<String> = estimates
                 .iter()
                 .filter(|e| e.parameter == Some(i))
-                .filter_map(|e| e.value.as_ref().err().map(|r| format!("{}: {r}", e.method.label())))
+                .filter_map(|e| {
+                    e.value
+                        .as_ref()
+                        .err()
+                        .map(|r| format!("{}: {r}", e.method.label()))
+                })
                 .collect();
             if reasons.is_empty() {
                 " (no shortcut estimator matches this experiment)".to_string()
@@ -172,7 +191,9 @@ pub fn complete(
                 lo + f * (hi - lo)
             };
             values[i] = v;
-            let rss = search.rss(experiment, &mut values.clone(), &linear).unwrap_or(f64::INFINITY);
+            let rss = search
+                .rss(experiment, &mut values.clone(), &linear)
+                .unwrap_or(f64::INFINITY);
             if rss < best.0 {
                 best = (rss, v);
             }
@@ -233,7 +254,12 @@ impl Search {
     /// Sum of squares (σ-weighted where σ are given) over all datasets at `values`, after
     /// setting each dataset's pending scale and offset (`linear`) by linear least squares;
     /// those are written into `values`.
-    fn rss(&mut self, experiment: &Experiment, values: &mut [f64], linear: &[usize]) -> Result<f64> {
+    fn rss(
+        &mut self,
+        experiment: &Experiment,
+        values: &mut [f64],
+        linear: &[usize],
+    ) -> Result<f64> {
         let mut total = 0.0;
         for d in &experiment.datasets {
             let model = d.model_for(values)?;
@@ -242,12 +268,26 @@ impl Search {
             let w: Vec<f64> = d
                 .sigma
                 .iter()
-                .map(|&s| if s.is_finite() && s > 0.0 { 1.0 / (s * s) } else { 1.0 })
+                .map(|&s| {
+                    if s.is_finite() && s > 0.0 {
+                        1.0 / (s * s)
+                    } else {
+                        1.0
+                    }
+                })
                 .collect();
             let (scale, offset) = d.scale_and_offset(values);
             let free_scale = d.scale_parameter().filter(|i| linear.contains(i));
             let free_offset = d.offset_parameter().filter(|i| linear.contains(i));
-            let (scale, offset) = linear_fit(&raw, &d.observed, &w, scale, offset, free_scale.is_some(), free_offset.is_some());
+            let (scale, offset) = linear_fit(
+                &raw,
+                &d.observed,
+                &w,
+                scale,
+                offset,
+                free_scale.is_some(),
+                free_offset.is_some(),
+            );
             if let Some(i) = free_scale {
                 values[i] = scale;
             }

@@ -1438,7 +1438,13 @@ pub(super) fn build(file: &ExperimentFile, index: &SpanIndex, base: &Path) -> Re
     let start: Vec<f64> = exp
         .parameters
         .iter()
-        .map(|p| if p.start_given { p.start } else { p.placeholder() })
+        .map(|p| {
+            if p.start_given {
+                p.start
+            } else {
+                p.placeholder()
+            }
+        })
         .collect();
     for d in &exp.datasets {
         if let Err(e) = d.model_for(&start) {
@@ -1487,18 +1493,25 @@ fn derived_number(
             format!("give the unit of the {what} ({})", names.join(", ")),
         ));
     };
-    let squeezed: String = unit.chars().filter(|c| !c.is_whitespace() && *c != '*' && *c != '·').collect();
+    let squeezed: String = unit
+        .chars()
+        .filter(|c| !c.is_whitespace() && *c != '*' && *c != '·')
+        .collect();
     match units.iter().find(|u| u.0.replace(' ', "") == squeezed) {
         Some((_, scale)) => Ok(number * scale),
         None => Err(b.err(
             InputKind::UnknownUnit,
             key,
-            format!("unknown unit '{unit}' for the {what}: use one of {}", names.join(", ")),
+            format!(
+                "unknown unit '{unit}' for the {what}: use one of {}",
+                names.join(", ")
+            ),
         )),
     }
 }
 
-const DENSITY_UNITS: &[(&str, f64)] = &[("kg/m3", 1.0), ("g/cm3", 1e3), ("g/mL", 1e3), ("kg/L", 1e3)];
+const DENSITY_UNITS: &[(&str, f64)] =
+    &[("kg/m3", 1.0), ("g/cm3", 1e3), ("g/mL", 1e3), ("kg/L", 1e3)];
 const HEAT_CAPACITY_UNITS: &[(&str, f64)] = &[
     ("J/(kg K)", 1.0),
     ("J/kg/K", 1.0),
@@ -1508,7 +1521,11 @@ const HEAT_CAPACITY_UNITS: &[(&str, f64)] = &[
     ("kJ/kg/K", 1e3),
 ];
 
-fn derived_requests(b: &Builder, file: &ExperimentFile, exp: &Experiment) -> Result<Vec<DerivedRequest>> {
+fn derived_requests(
+    b: &Builder,
+    file: &ExperimentFile,
+    exp: &Experiment,
+) -> Result<Vec<DerivedRequest>> {
     let mut out = Vec::new();
     for (name, spec) in &file.derived {
         let key = format!("derived.{name}");
@@ -1516,43 +1533,70 @@ fn derived_requests(b: &Builder, file: &ExperimentFile, exp: &Experiment) -> Res
         let dataset = |b: &Builder| -> Result<usize> {
             match &spec.dataset {
                 None => Ok(0),
-                Some(n) => exp.datasets.iter().position(|d| &d.name == n).ok_or_else(|| {
-                    let hint = suggest::did_you_mean(n, exp.datasets.iter().map(|d| d.name.as_str()));
-                    b.err(InputKind::BadValue, &k("dataset"), format!("no dataset is named '{n}'{hint}"))
-                }),
+                Some(n) => exp
+                    .datasets
+                    .iter()
+                    .position(|d| &d.name == n)
+                    .ok_or_else(|| {
+                        let hint =
+                            suggest::did_you_mean(n, exp.datasets.iter().map(|d| d.name.as_str()));
+                        b.err(
+                            InputKind::BadValue,
+                            &k("dataset"),
+                            format!("no dataset is named '{n}'{hint}"),
+                        )
+                    }),
             }
         };
         let needs = |field: &str, present: bool| -> Result<()> {
             if present {
                 Ok(())
             } else {
-                Err(b.err(InputKind::MissingKey, &k(field), format!("{key} needs `{field}`")))
+                Err(b.err(
+                    InputKind::MissingKey,
+                    &k(field),
+                    format!("{key} needs `{field}`"),
+                ))
             }
         };
         let what = match spec.quantity {
             DerivedName::Conductivity => {
-                let diffusivity = match &spec.diffusivity {
-                    Some(pname) => match exp.parameters.iter().position(|p| &p.name == pname) {
-                        Some(i) => i,
-                        None => {
-                            let hint = suggest::did_you_mean(pname, exp.parameters.iter().map(|p| p.name.as_str()));
-                            return Err(b.err(InputKind::UndefinedParameter, &k("diffusivity"), format!("no parameter is named '{pname}'{hint}")));
-                        }
-                    },
-                    None => match exp.datasets.first().and_then(Dataset::diffusivity_parameter) {
-                        Some(i) => i,
-                        None => {
-                            return Err(b.err(
+                let diffusivity =
+                    match &spec.diffusivity {
+                        Some(pname) => match exp.parameters.iter().position(|p| &p.name == pname) {
+                            Some(i) => i,
+                            None => {
+                                let hint = suggest::did_you_mean(
+                                    pname,
+                                    exp.parameters.iter().map(|p| p.name.as_str()),
+                                );
+                                return Err(b.err(
+                                    InputKind::UndefinedParameter,
+                                    &k("diffusivity"),
+                                    format!("no parameter is named '{pname}'{hint}"),
+                                ));
+                            }
+                        },
+                        None => match exp
+                            .datasets
+                            .first()
+                            .and_then(Dataset::diffusivity_parameter)
+                        {
+                            Some(i) => i,
+                            None => return Err(b.err(
                                 InputKind::MissingKey,
                                 &k("diffusivity"),
                                 "name the fitted diffusivity parameter (`diffusivity = \"alpha\"`)",
-                            ))
-                        }
-                    },
-                };
+                            )),
+                        },
+                    };
                 let pname = exp.parameters[diffusivity].name.clone();
                 if exp.parameters[diffusivity].kind != Kind::Diffusivity {
-                    return Err(b.err(InputKind::BadValue, &k("diffusivity"), format!("'{pname}' is not a diffusivity")));
+                    return Err(b.err(
+                        InputKind::BadValue,
+                        &k("diffusivity"),
+                        format!("'{pname}' is not a diffusivity"),
+                    ));
                 }
                 needs("density", spec.density.is_some())?;
                 needs("heat_capacity", spec.heat_capacity.is_some())?;
@@ -1563,17 +1607,43 @@ fn derived_requests(b: &Builder, file: &ExperimentFile, exp: &Experiment) -> Res
                     }
                 };
                 let rho = num(&spec.density, DENSITY_UNITS, "density", "density")?;
-                let u_rho = num(&spec.density_uncertainty, DENSITY_UNITS, "density", "density_uncertainty")?;
-                let cp = num(&spec.heat_capacity, HEAT_CAPACITY_UNITS, "heat capacity", "heat_capacity")?;
-                let u_cp = num(&spec.heat_capacity_uncertainty, HEAT_CAPACITY_UNITS, "heat capacity", "heat_capacity_uncertainty")?;
+                let u_rho = num(
+                    &spec.density_uncertainty,
+                    DENSITY_UNITS,
+                    "density",
+                    "density_uncertainty",
+                )?;
+                let cp = num(
+                    &spec.heat_capacity,
+                    HEAT_CAPACITY_UNITS,
+                    "heat capacity",
+                    "heat_capacity",
+                )?;
+                let u_cp = num(
+                    &spec.heat_capacity_uncertainty,
+                    HEAT_CAPACITY_UNITS,
+                    "heat capacity",
+                    "heat_capacity_uncertainty",
+                )?;
                 for (v, field) in [(rho, "density"), (cp, "heat_capacity")] {
                     if v <= 0.0 {
-                        return Err(b.err(InputKind::BadValue, &k(field), format!("{key}.{field} must be > 0")));
+                        return Err(b.err(
+                            InputKind::BadValue,
+                            &k(field),
+                            format!("{key}.{field} must be > 0"),
+                        ));
                     }
                 }
-                for (v, field) in [(u_rho, "density_uncertainty"), (u_cp, "heat_capacity_uncertainty")] {
+                for (v, field) in [
+                    (u_rho, "density_uncertainty"),
+                    (u_cp, "heat_capacity_uncertainty"),
+                ] {
                     if v < 0.0 {
-                        return Err(b.err(InputKind::BadValue, &k(field), format!("{key}.{field} must be ≥ 0")));
+                        return Err(b.err(
+                            InputKind::BadValue,
+                            &k(field),
+                            format!("{key}.{field} must be ≥ 0"),
+                        ));
                     }
                 }
                 DerivedWhat::Conductivity {
@@ -1585,7 +1655,13 @@ fn derived_requests(b: &Builder, file: &ExperimentFile, exp: &Experiment) -> Res
             DerivedName::EquilibriumTime => {
                 let fraction = spec.fraction.unwrap_or(0.95);
                 if !(fraction > 0.0 && fraction < 1.0) {
-                    return Err(b.err(InputKind::BadValue, &k("fraction"), format!("expected a fraction between 0 and 1 (such as 0.95), found {fraction}")));
+                    return Err(b.err(
+                        InputKind::BadValue,
+                        &k("fraction"),
+                        format!(
+                            "expected a fraction between 0 and 1 (such as 0.95), found {fraction}"
+                        ),
+                    ));
                 }
                 DerivedWhat::EquilibriumTime {
                     dataset: dataset(b)?,
@@ -1600,7 +1676,10 @@ fn derived_requests(b: &Builder, file: &ExperimentFile, exp: &Experiment) -> Res
                     .iter()
                     .flatten()
                     .enumerate()
-                    .map(|(i, t)| b.literal(t, Kind::Time, Check::Positive, &format!("{key}.times[{i}]")).map(|x| x.0))
+                    .map(|(i, t)| {
+                        b.literal(t, Kind::Time, Check::Positive, &format!("{key}.times[{i}]"))
+                            .map(|x| x.0)
+                    })
                     .collect::<Result<Vec<f64>>>()?;
                 if times.is_empty() {
                     return Err(b.err(InputKind::BadValue, &k("times"), "give at least one time"));

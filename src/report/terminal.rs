@@ -214,7 +214,11 @@ pub fn write_summary(report: &Report, out: &mut dyn Write) -> io::Result<()> {
                 num(m.delta_aicc),
                 num(m.akaike_weight),
                 num(m.evidence_ratio),
-                if m.converged { "" } else { "  (did not converge)" }
+                if m.converged {
+                    ""
+                } else {
+                    "  (did not converge)"
+                }
             )?;
         }
         writeln!(out, "  {}", c.verdict)?;

@@ -62,7 +62,9 @@ uniform_cells = 40
 fn times() -> Vec<f64> {
     let l2_over_d = (100e-6f64).powi(2) / D_TRUE;
     (0..30)
-        .map(|k| (0.003f64.ln() + (0.6f64.ln() - 0.003f64.ln()) * k as f64 / 29.0).exp() * l2_over_d)
+        .map(|k| {
+            (0.003f64.ln() + (0.6f64.ln() - 0.003f64.ln()) * k as f64 / 29.0).exp() * l2_over_d
+        })
         .collect()
 }
 
@@ -96,7 +98,11 @@ fn replicate(seed: u64) -> (bool, bool, bool) {
         },
     )
     .unwrap();
-    assert!(a.fit.stop.converged(), "seed {seed}: {}", a.fit.stop_message);
+    assert!(
+        a.fit.stop.converged(),
+        "seed {seed}: {}",
+        a.fit.stop_message
+    );
     let pr = &a.fit.parameters[exp.parameter_index("D").unwrap()];
     let inside = |lo: f64, hi: f64| lo < D_TRUE && D_TRUE < hi;
     let jac = pr.interval.as_ref().unwrap();

@@ -9,6 +9,7 @@
 
 pub mod analysis;
 pub mod analytic;
+pub mod arrhenius;
 pub mod data;
 pub mod error;
 pub mod experiment;

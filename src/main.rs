@@ -26,6 +26,7 @@ fn main() {
         Command::Fit(a) => cli::commands::fit(a),
         Command::Check(a) => cli::commands::check(a),
         Command::Simulate(a) => cli::commands::simulate(a),
+        Command::Arrhenius(a) => cli::commands::arrhenius(a),
         Command::Generate(a) => {
             cli::generate(a, &mut std::io::stdout().lock()).map(|_| Outcome::Success)
         }

@@ -42,6 +42,12 @@ pub enum Command {
     /// estimates; fit nothing.
     #[command(after_help = "Example:\n  fickfit check sample-data/film-uptake/experiment.toml")]
     Check(CheckArgs),
+    /// Fit D = D0 exp(-Ea/(R T)) to one diffusivity taken from the report.json of several fits
+    /// made at different temperatures, and write an Arrhenius plot.
+    #[command(
+        after_help = "Example:\n  fickfit arrhenius anneal-1100K/report.json anneal-1150K/report.json anneal-1200K/report.json --out arrhenius\n  fickfit arrhenius a/report.json b/report.json --temperature \"827 degC,877 degC\" --parameter D"
+    )]
+    Arrhenius(ArrheniusArgs),
     /// Write shell completions or the man page.
     #[command(
         after_help = "Example:\n  fickfit generate completions bash > fickfit.bash\n  fickfit generate man > fickfit.1"
@@ -116,6 +122,34 @@ pub struct CheckArgs {
     /// The experiment file (TOML).
     #[arg(value_name = "EXPERIMENT")]
     pub experiment: PathBuf,
+}
+
+/// Options of `fickfit arrhenius`.
+#[derive(Debug, Args)]
+pub struct ArrheniusArgs {
+    /// The report.json files of the fits, one per temperature.
+    #[arg(value_name = "REPORT", required = true, num_args = 1..)]
+    pub reports: Vec<PathBuf>,
+    /// The diffusivity parameter to take from each report.
+    #[arg(long, value_name = "NAME", default_value = "D")]
+    pub parameter: String,
+    /// The temperature of each report, in order, with unit ("1100 K,1150 K"); default: the
+    /// `temperature` each experiment file gave.
+    #[arg(long, value_name = "T,T,...", value_delimiter = ',')]
+    pub temperature: Vec<String>,
+    /// Confidence level of the intervals, between 0 and 1.
+    #[arg(long, value_name = "LEVEL", default_value_t = 0.95)]
+    pub level: f64,
+    /// Folder for arrhenius.json and the plot (created; must not exist or be empty unless
+    /// --force).
+    #[arg(long, short, value_name = "DIR")]
+    pub out: Option<PathBuf>,
+    /// Replace the files of an existing, non-empty folder.
+    #[arg(long)]
+    pub force: bool,
+    /// Print the result as JSON on standard output instead of the summary.
+    #[arg(long)]
+    pub json: bool,
 }
 
 /// What `fickfit generate` writes.

@@ -1,6 +1,6 @@
 //! The commands: each loads what it needs through the library and prints the result.
 
-use super::args::{CheckArgs, FitArgs, SimulateArgs};
+use super::args::{ArrheniusArgs, CheckArgs, FitArgs, SimulateArgs};
 use super::Outcome;
 use anyhow::{bail, Context};
 use fickfit::analysis::{analyse, AnalysisOptions};
@@ -307,6 +307,114 @@ pub fn simulate(args: &SimulateArgs) -> anyhow::Result<Outcome> {
             targets[d].display(),
             ds.len()
         );
+    }
+    Ok(Outcome::Success)
+}
+
+/// `fickfit arrhenius`.
+pub fn arrhenius(args: &ArrheniusArgs) -> anyhow::Result<Outcome> {
+    use fickfit::units::{Quantity, Unit};
+    let temperatures = if args.temperature.is_empty() {
+        None
+    } else {
+        let mut t = Vec::new();
+        for (i, text) in args.temperature.iter().enumerate() {
+            let w = fickfit::experiment::quantity::split_number(text)
+                .filter(|w| w.unit.is_some())
+                .with_context(|| {
+                    format!(
+                        "--temperature: entry {} ('{text}') is not a temperature with unit, such as 1100 K",
+                        i + 1
+                    )
+                })?;
+            let unit = Unit::parse_at(
+                w.unit.as_deref().unwrap_or(""),
+                Some(Quantity::Temperature),
+                &fickfit::Location::default().with_key("--temperature"),
+            )?;
+            t.push(unit.to_si(w.number));
+        }
+        Some(t)
+    };
+    let folder = match &args.out {
+        Some(dir) => Some(ReportFolder::create(dir, args.force)?),
+        None => None,
+    };
+    let report = fickfit::arrhenius::from_reports(
+        &args.reports,
+        &args.parameter,
+        temperatures.as_deref(),
+        args.level,
+    )?;
+    if let Some(folder) = &folder {
+        folder.write_with("arrhenius.json", |w| {
+            serde_json::to_writer_pretty(&mut *w, &report).map_err(std::io::Error::other)?;
+            writeln!(w)
+        })?;
+        let fig = fickfit::arrhenius::figure(&report);
+        let svg = fickfit::report::plot::to_svg(&fig)?.svg;
+        folder.write_with("arrhenius.svg", |w| w.write_all(svg.as_bytes()))?;
+        fickfit::report::plot::to_png(&fig, folder.path().join("arrhenius.png"))?;
+    }
+    let mut out = std::io::stdout().lock();
+    if args.json {
+        serde_json::to_writer_pretty(&mut out, &report)?;
+        writeln!(out)?;
+        return Ok(Outcome::Success);
+    }
+    writeln!(
+        out,
+        "Arrhenius fit of {} from {} reports:",
+        report.parameter,
+        report.points.len()
+    )?;
+    writeln!(
+        out,
+        "  {:>10} {:>14} {:>12} {:>14}  report",
+        "T [K]", "D [m2/s]", "std. error", "line [m2/s]"
+    )?;
+    for p in &report.points {
+        writeln!(
+            out,
+            "  {:>10} {:>14} {:>12} {:>14}  {}",
+            terminal::num(Some(p.temperature_k)),
+            terminal::num(Some(p.d)),
+            terminal::num(Some(p.d_std_error)),
+            terminal::num(Some(p.d_line)),
+            p.report
+        )?;
+    }
+    let pct = report.level * 100.0;
+    writeln!(
+        out,
+        "  D0 = {} m2/s, {pct:.0} % interval [{}, {}]",
+        terminal::num(Some(report.d0)),
+        terminal::num(Some(report.d0_interval[0])),
+        terminal::num(Some(report.d0_interval[1]))
+    )?;
+    writeln!(
+        out,
+        "  Ea = {} ± {} kJ/mol, {pct:.0} % interval [{}, {}]; correlation of ln D0 and Ea {}",
+        terminal::num(Some(report.activation_energy_kj_mol)),
+        terminal::num(Some(report.activation_energy_std_error)),
+        terminal::num(Some(report.activation_energy_interval[0])),
+        terminal::num(Some(report.activation_energy_interval[1])),
+        terminal::num(Some(report.correlation))
+    )?;
+    if let Some(c) = report.reduced_chi2 {
+        writeln!(
+            out,
+            "  reduced χ² of the line {}{}",
+            terminal::num(Some(c)),
+            if report.scaled_by_scatter {
+                ": the points scatter more than their standard errors; errors scaled by its root"
+            } else {
+                ""
+            }
+        )?;
+    }
+    if let Some(f) = &folder {
+        writeln!(out, "written to {}", f.path().display())?;
     }
     Ok(Outcome::Success)
 }

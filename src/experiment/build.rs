@@ -446,6 +446,8 @@ pub struct Experiment {
     pub fit: FitOptions,
     /// Quantities to derive from the fit (`[derived]`).
     pub derived: Vec<DerivedRequest>,
+    /// Temperature of the run, K (`temperature`), for Arrhenius analyses.
+    pub temperature: Option<f64>,
 }
 
 /// A quantity to derive from the fitted parameters (`[derived.NAME]`), SI.
@@ -1430,6 +1432,10 @@ pub(super) fn build(file: &ExperimentFile, index: &SpanIndex, base: &Path) -> Re
         solver: solver_options(&file.solver, index)?,
         fit: fit_options(&file.fit, index)?,
         derived: Vec::new(),
+        temperature: match &file.temperature {
+            None => None,
+            Some(t) => Some(temperature_of(&b, t)?),
+        },
     };
     let mut exp = exp;
     exp.derived = derived_requests(&b, file, &exp)?;
@@ -1459,6 +1465,36 @@ pub(super) fn build(file: &ExperimentFile, index: &SpanIndex, base: &Path) -> Re
         }
     }
     Ok(exp)
+}
+
+/// The run's temperature (`temperature`), K.
+fn temperature_of(b: &Builder, s: &Scalar) -> Result<f64> {
+    let key = "temperature";
+    let written = match s {
+        Scalar::Text(t) => quantity::split_number(t),
+        Scalar::Number(_) => None,
+    };
+    let Some(w) = written.filter(|w| w.unit.is_some()) else {
+        return Err(b.err(
+            InputKind::BadValue,
+            key,
+            "give the temperature with its unit, such as \"1200 K\" or \"925 degC\"",
+        ));
+    };
+    let unit = crate::units::Unit::parse_at(
+        w.unit.as_deref().unwrap_or(""),
+        Some(Quantity::Temperature),
+        &b.index.location(key),
+    )?;
+    let t = unit.to_si(w.number);
+    if !(t.is_finite() && t > 0.0) {
+        return Err(b.err(
+            InputKind::BadValue,
+            key,
+            format!("the temperature must be above absolute zero, found {t} K"),
+        ));
+    }
+    Ok(t)
 }
 
 /// A number with one of the units of a derived quantity's input, in SI.

@@ -192,6 +192,8 @@ pub struct ExperimentFile {
     pub title: Option<String>,
     /// Free text.
     pub notes: Option<String>,
+    /// Temperature of the run (for Arrhenius analyses across reports), with unit.
+    pub temperature: Option<Scalar>,
     /// The sample.
     pub sample: SampleSpec,
     /// The two ends.

@@ -33,6 +33,8 @@ pub struct Report {
     pub experiment_sha256: String,
     /// Title from the experiment file.
     pub title: Option<String>,
+    /// Temperature of the run from the experiment file, K (for Arrhenius analyses).
+    pub temperature_k: Option<f64>,
     /// Parameters, free and fixed.
     pub parameters: Vec<ParameterRow>,
     /// Fit quality and how the search ended.
@@ -343,6 +345,7 @@ impl Report {
             experiment_file: e.file.display().to_string(),
             experiment_sha256: hash.iter().map(|b| format!("{b:02x}")).collect(),
             title: e.title.clone(),
+            temperature_k: e.temperature,
             parameters,
             fit,
             correlation,

@@ -46,11 +46,11 @@ impl Observer for Bar {
         ) {
             self.bar.set_style(style.progress_chars("=> "));
         }
-        self.bar.set_message(stage.describe());
         self.bar.set_length(total as u64);
         self.bar.set_position(0);
         self.bar.reset_elapsed();
         self.bar.reset_eta();
+        self.bar.set_message(stage.describe());
     }
 
     fn advanced(&self, _stage: Stage, done: usize, _total: usize) {

@@ -737,3 +737,21 @@ fn a_killed_run_leaves_no_report_and_keeps_a_previous_one() {
         assert!(hidden.is_empty(), "{signal}: staging left behind");
     }
 }
+
+#[test]
+fn no_progress_bar_when_stderr_is_not_a_terminal() {
+    // Here stderr is a pipe: the bar must stay hidden even without --quiet.
+    let dir = tempfile::tempdir().unwrap();
+    let out = bin()
+        .arg("fit")
+        .arg(sample("heated-rod"))
+        .args(["--bootstrap", "10", "--out"])
+        .arg(dir.path().join("r"))
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(0));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(!err.contains("bootstrap refits"), "{err}");
+    assert!(err.is_empty(), "{err}");
+    assert!(String::from_utf8_lossy(&out.stdout).contains("report written to"));
+}

@@ -146,6 +146,26 @@ fn report_folder_is_never_clobbered_without_force() {
         std::fs::read_to_string(dir.path().join("my-notes.txt")).unwrap(),
         "keep me"
     );
+    // A second --force run replaces the report files (here a stale report.json) in place.
+    std::fs::write(dir.path().join("report.json"), "stale").unwrap();
+    let out = bin()
+        .arg("fit")
+        .arg(sample("heated-rod"))
+        .arg("--out")
+        .arg(dir.path())
+        .arg("--force")
+        .arg("--quiet")
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(0));
+    let report: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(dir.path().join("report.json")).unwrap())
+            .expect("report.json replaced by a real report");
+    assert_eq!(report["schema_version"], 1);
+    assert_eq!(
+        visible_files(dir.path()).len(),
+        report_files(dir.path()).len() + 1
+    );
 }
 
 #[test]
@@ -164,6 +184,41 @@ fn bad_experiment_file_exits_2_naming_the_key() {
         "{err}"
     );
     assert_eq!(err.lines().count(), 1, "one line: {err}");
+}
+
+#[test]
+fn fit_with_a_bad_experiment_file_exits_2_naming_the_key_and_writes_nothing() {
+    let dir = tempfile::tempdir().unwrap();
+    let rod = Path::new(env!("CARGO_MANIFEST_DIR")).join("sample-data/heated-rod");
+    for f in ["heater.csv", "sensors.csv"] {
+        std::fs::copy(rod.join(f), dir.path().join(f)).unwrap();
+    }
+    let text = std::fs::read_to_string(sample("heated-rod"))
+        .unwrap()
+        .replace("thickness = \"300 mm\"", "thickness = \"300 furlongs\"");
+    assert!(text.contains("furlongs"));
+    let path = dir.path().join("bad.toml");
+    std::fs::write(&path, text).unwrap();
+    let out_dir = dir.path().join("report");
+    let out = bin()
+        .arg("fit")
+        .arg(&path)
+        .arg("--out")
+        .arg(&out_dir)
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        err.starts_with("fickfit: ")
+            && err.contains("sample.thickness")
+            && err.contains("furlongs"),
+        "{err}"
+    );
+    assert!(
+        !out_dir.exists(),
+        "no report folder for a refused experiment"
+    );
 }
 
 #[test]
@@ -213,4 +268,490 @@ fn help_man_page_and_completions() {
     assert!(comp.status.success() && String::from_utf8_lossy(&comp.stdout).contains("fickfit"));
     let bad = bin().args(["fit"]).output().unwrap();
     assert_eq!(bad.status.code(), Some(2));
+}
+
+// ---------------------------------------------------------------------------------------------
+// Report files, the JSON Schema, profile curves
+
+/// The files of `dir` whose names do not start with a dot.
+fn visible_files(dir: &Path) -> Vec<String> {
+    let mut v: Vec<String> = match std::fs::read_dir(dir) {
+        Ok(rd) => rd
+            .flatten()
+            .map(|e| e.file_name().to_string_lossy().into_owned())
+            .filter(|n| !n.starts_with('.'))
+            .collect(),
+        Err(_) => Vec::new(),
+    };
+    v.sort();
+    v
+}
+
+/// The visible files of `dir` that a report writes.
+fn report_files(dir: &Path) -> Vec<String> {
+    visible_files(dir)
+        .into_iter()
+        .filter(|n| {
+            n.starts_with("report.")
+                || n == "fitted.csv"
+                || n.ends_with(".svg")
+                || n.ends_with(".png")
+                || n.contains("partial")
+                || n.contains("tmp")
+        })
+        .collect()
+}
+
+fn fit_into(name: &str, out_dir: &Path, extra: &[&str]) -> serde_json::Value {
+    let out = bin()
+        .arg("fit")
+        .arg(sample(name))
+        .arg("--out")
+        .arg(out_dir)
+        .arg("--quiet")
+        .args(extra)
+        .output()
+        .unwrap();
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{name}: {}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    serde_json::from_str(&std::fs::read_to_string(out_dir.join("report.json")).unwrap()).unwrap()
+}
+
+fn schema() -> serde_json::Value {
+    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("docs/report.schema.json");
+    serde_json::from_str(&std::fs::read_to_string(path).unwrap()).expect("the schema is JSON")
+}
+
+/// A small JSON Schema validator for the keywords docs/report.schema.json uses: `type` (one
+/// name or a list), `enum`, `minimum`, `required`, `properties`, `additionalProperties: false`,
+/// `items`, `anyOf` and `$ref` to `#/$defs/NAME`. A keyword it does not know is an error, so
+/// the schema cannot say more than is checked. Semantics as in JSON Schema 2020-12,
+/// Validation §6.1–6.5 and Core §10.3 (json-schema.org) — from memory. Errors name the path.
+fn validate(
+    root: &serde_json::Value,
+    schema: &serde_json::Value,
+    v: &serde_json::Value,
+    at: &str,
+    errors: &mut Vec<String>,
+) {
+    use serde_json::Value;
+    let Some(obj) = schema.as_object() else {
+        errors.push(format!("{at}: schema is not an object"));
+        return;
+    };
+    for (key, rule) in obj {
+        match key.as_str() {
+            "$schema" | "$id" | "$defs" | "title" | "description" => {}
+            "$ref" => {
+                let name = rule.as_str().and_then(|r| r.strip_prefix("#/$defs/"));
+                match name.and_then(|n| root["$defs"].get(n)) {
+                    Some(target) => validate(root, target, v, at, errors),
+                    None => errors.push(format!("{at}: unresolved $ref {rule}")),
+                }
+            }
+            "type" => {
+                let names: Vec<&str> = match rule {
+                    Value::String(s) => vec![s.as_str()],
+                    Value::Array(a) => a.iter().filter_map(Value::as_str).collect(),
+                    _ => vec![],
+                };
+                let ok = names.iter().any(|t| match *t {
+                    "object" => v.is_object(),
+                    "array" => v.is_array(),
+                    "string" => v.is_string(),
+                    "boolean" => v.is_boolean(),
+                    "null" => v.is_null(),
+                    "number" => v.is_number(),
+                    "integer" => v.is_u64() || v.is_i64(),
+                    _ => false,
+                });
+                if !ok {
+                    errors.push(format!("{at}: expected {rule}, found {v}"));
+                }
+            }
+            "enum" => {
+                if !rule.as_array().is_some_and(|a| a.contains(v)) {
+                    errors.push(format!("{at}: {v} not one of {rule}"));
+                }
+            }
+            "minimum" => {
+                if let (Some(x), Some(m)) = (v.as_f64(), rule.as_f64()) {
+                    if x < m {
+                        errors.push(format!("{at}: {x} below the minimum {m}"));
+                    }
+                }
+            }
+            "required" => {
+                if let Some(o) = v.as_object() {
+                    for name in rule
+                        .as_array()
+                        .into_iter()
+                        .flatten()
+                        .filter_map(Value::as_str)
+                    {
+                        if !o.contains_key(name) {
+                            errors.push(format!("{at}: missing required key '{name}'"));
+                        }
+                    }
+                }
+            }
+            "properties" => {
+                if let (Some(o), Some(props)) = (v.as_object(), rule.as_object()) {
+                    for (name, sub) in props {
+                        if let Some(x) = o.get(name) {
+                            validate(root, sub, x, &format!("{at}.{name}"), errors);
+                        }
+                    }
+                }
+            }
+            "additionalProperties" => {
+                if rule != &Value::Bool(false) {
+                    errors.push(format!(
+                        "{at}: only additionalProperties: false is supported"
+                    ));
+                }
+                if let Some(o) = v.as_object() {
+                    let props = obj.get("properties").and_then(Value::as_object);
+                    for name in o.keys() {
+                        if !props.is_some_and(|p| p.contains_key(name)) {
+                            errors.push(format!("{at}: key '{name}' is not in the schema"));
+                        }
+                    }
+                }
+            }
+            "items" => {
+                if let Some(a) = v.as_array() {
+                    for (i, x) in a.iter().enumerate() {
+                        validate(root, rule, x, &format!("{at}[{i}]"), errors);
+                    }
+                }
+            }
+            "anyOf" => {
+                let alternatives = rule.as_array().cloned().unwrap_or_default();
+                let any = alternatives.iter().any(|alt| {
+                    let mut e = Vec::new();
+                    validate(root, alt, v, at, &mut e);
+                    e.is_empty()
+                });
+                if !any {
+                    errors.push(format!("{at}: matches no alternative of anyOf"));
+                }
+            }
+            other => errors.push(format!(
+                "{at}: schema keyword '{other}' is not checked by this validator"
+            )),
+        }
+    }
+}
+
+fn schema_errors(report: &serde_json::Value) -> Vec<String> {
+    let s = schema();
+    let mut errors = Vec::new();
+    validate(&s, &s, report, "report", &mut errors);
+    errors
+}
+
+/// Every property in the schema has a description (every field of report.json documented).
+fn undocumented(schema: &serde_json::Value, at: &str, out: &mut Vec<String>) {
+    if let Some(props) = schema.get("properties").and_then(|p| p.as_object()) {
+        for (name, sub) in props {
+            let text = sub.get("description").and_then(|d| d.as_str());
+            if text.is_none_or(str::is_empty) {
+                out.push(format!("{at}.{name}"));
+            }
+            undocumented(sub, &format!("{at}.{name}"), out);
+        }
+    }
+    for key in ["items", "$defs"] {
+        match schema.get(key) {
+            Some(serde_json::Value::Object(m)) if key == "$defs" => {
+                for (n, sub) in m {
+                    undocumented(sub, &format!("$defs.{n}"), out);
+                }
+            }
+            Some(sub) => undocumented(sub, &format!("{at}[]"), out),
+            None => {}
+        }
+    }
+    for alt in schema
+        .get("anyOf")
+        .and_then(|a| a.as_array())
+        .into_iter()
+        .flatten()
+    {
+        undocumented(alt, at, out);
+    }
+}
+
+#[test]
+fn report_json_validates_against_the_documented_schema() {
+    let mut missing = Vec::new();
+    undocumented(&schema(), "report", &mut missing);
+    assert!(missing.is_empty(), "undocumented: {missing:?}");
+
+    let dir = tempfile::tempdir().unwrap();
+    // Absolute σ, two free parameters, with every optional part present.
+    let rod = dir.path().join("rod");
+    let report = fit_into("heated-rod", &rod, &["--profile", "--bootstrap", "20"]);
+    let errors = schema_errors(&report);
+    assert!(errors.is_empty(), "{errors:#?}");
+    // Relative weighting, no extras: the optional parts are null.
+    let profiles = dir.path().join("profiles");
+    let plain = fit_into("depth-profiles", &profiles, &[]);
+    let errors = schema_errors(&plain);
+    assert!(errors.is_empty(), "{errors:#?}");
+    assert!(plain["parameters"][0]["profile"].is_null());
+
+    // The validator can fail: an undocumented key, a wrong type and a missing key are found.
+    let mut bad = report.clone();
+    bad["parameters"][0]["surprise"] = serde_json::json!(1);
+    bad["fit"]["n_points"] = serde_json::json!("many");
+    bad.as_object_mut().unwrap().remove("warnings");
+    let errors = schema_errors(&bad);
+    assert_eq!(errors.len(), 3, "{errors:#?}");
+
+    // The hash is the SHA-256 of the experiment file's bytes (FIPS 180-4, via the sha2 crate).
+    use sha2::Digest;
+    let digest = sha2::Sha256::digest(std::fs::read(sample("heated-rod")).unwrap());
+    let hex: String = digest.iter().map(|b| format!("{b:02x}")).collect();
+    assert_eq!(report["experiment_sha256"], hex.as_str());
+}
+
+#[test]
+fn profile_curves_reach_the_report_and_the_figures() {
+    let dir = tempfile::tempdir().unwrap();
+    let out_dir = dir.path().join("rod");
+    let report = fit_into("heated-rod", &out_dir, &["--profile"]);
+    // χ²(1) quantile at 0.95 = 3.841459 (NIST/SEMATECH e-Handbook of Statistical Methods,
+    // §1.3.6.7.4, upper critical values of the chi-square distribution: 3.841 at ν = 1).
+    for p in report["parameters"].as_array().unwrap() {
+        let name = p["name"].as_str().unwrap();
+        let pr = &p["profile"];
+        assert_eq!(pr["statistic"], "chi_square", "{name}: absolute σ");
+        let thr = pr["threshold"].as_f64().unwrap();
+        assert!((thr - 3.841459).abs() < 1e-5, "{name}: threshold {thr}");
+        let points = pr["points"].as_array().unwrap();
+        assert!(points.len() >= 5, "{name}: {} points", points.len());
+        let pts: Vec<(f64, f64)> = points
+            .iter()
+            .map(|q| {
+                (
+                    q["value"].as_f64().unwrap(),
+                    q["statistic"].as_f64().unwrap(),
+                )
+            })
+            .collect();
+        assert!(
+            pts.windows(2).all(|w| w[0].0 <= w[1].0),
+            "{name}: sorted by value"
+        );
+        let est = p["estimate"].as_f64().unwrap();
+        let (low, high) = (pr["low"].as_f64().unwrap(), pr["high"].as_f64().unwrap());
+        let scale = (high - low).abs();
+        // The optimum (statistic 0) and both ends (statistic = threshold) are on the curve.
+        assert!(
+            pts.iter()
+                .any(|&(v, s)| (v - est).abs() <= 1e-9 * est.abs().max(1e-300) && s.abs() < 1e-9),
+            "{name}: optimum"
+        );
+        for end in [low, high] {
+            assert!(
+                pts.iter()
+                    .any(|&(v, s)| (v - end).abs() <= 1e-9 * scale && (s - thr).abs() < 1e-9),
+                "{name}: end {end}"
+            );
+        }
+        // Every point is a minimum over the others: never below the optimum (common practice:
+        // a profile of a least-squares optimum is ≥ 0), and inside the interval below the
+        // threshold, outside above it (allowing the search tolerance).
+        for &(v, s) in &pts {
+            assert!(s >= -1e-6, "{name}: statistic {s} at {v}");
+            if v > low + 1e-6 * scale && v < high - 1e-6 * scale {
+                assert!(
+                    s <= thr + 1e-6,
+                    "{name}: {s} above the threshold inside at {v}"
+                );
+            }
+            if v < low - 1e-6 * scale || v > high + 1e-6 * scale {
+                assert!(
+                    s >= thr - 1e-6,
+                    "{name}: {s} below the threshold outside at {v}"
+                );
+            }
+        }
+        // One panel per parameter, SVG and PNG, axis in the parameter's unit.
+        let stem = format!("profile-{name}");
+        let svg = std::fs::read_to_string(out_dir.join(format!("{stem}.svg"))).unwrap();
+        let unit = p["unit"].as_str().unwrap();
+        assert!(
+            svg.contains(&format!("{name} [{unit}]")),
+            "{stem}.svg: axis label with unit"
+        );
+        assert!(
+            svg.contains("threshold"),
+            "{stem}.svg: threshold in the legend"
+        );
+        let png = std::fs::read(out_dir.join(format!("{stem}.png"))).unwrap();
+        assert!(png.starts_with(b"\x89PNG\r\n\x1a\n"), "{stem}.png");
+    }
+    let html = std::fs::read_to_string(out_dir.join("report.html")).unwrap();
+    assert!(html.contains("Profile likelihood"));
+    // one panel (its SVG title) per free parameter
+    assert_eq!(html.matches("Profile of ").count(), 2);
+    // Two free parameters: the correlation heat map in both formats.
+    assert!(out_dir.join("correlation.svg").is_file());
+    let png = std::fs::read(out_dir.join("correlation.png")).unwrap();
+    assert!(png.starts_with(b"\x89PNG\r\n\x1a\n"));
+
+    // Without --profile, no panel and no section.
+    let plain_dir = dir.path().join("plain");
+    fit_into("heated-rod", &plain_dir, &[]);
+    assert!(!visible_files(&plain_dir)
+        .iter()
+        .any(|n| n.starts_with("profile-")));
+    let html = std::fs::read_to_string(plain_dir.join("report.html")).unwrap();
+    assert!(!html.contains("Profile likelihood"));
+}
+
+#[test]
+fn fitted_csv_is_in_the_data_files_units() {
+    let dir = tempfile::tempdir().unwrap();
+    // Sensors: time in s (the file's header), positions in mm (the experiment file's sensor
+    // positions), temperatures in degC.
+    let rod = dir.path().join("rod");
+    fit_into("heated-rod", &rod, &[]);
+    let text = std::fs::read_to_string(rod.join("fitted.csv")).unwrap();
+    let mut lines = text.lines();
+    assert_eq!(
+        lines.next().unwrap(),
+        "dataset,line,time [s],position [mm],observed [degC],predicted [degC],residual [degC],standardised residual"
+    );
+    // The first row is line 3 of sensors.csv: t = 0 s, sensor T1 at 25 mm, 21.4502307 degC
+    // (the values in sample-data/heated-rod/sensors.csv and experiment.toml).
+    let row: Vec<&str> = lines.next().unwrap().split(',').collect();
+    assert_eq!(row[1], "3");
+    let num = |i: usize| row[i].parse::<f64>().unwrap();
+    assert_eq!(num(2), 0.0);
+    assert!((num(3) - 25.0).abs() < 1e-9, "{row:?}");
+    assert!((num(4) - 21.4502307).abs() < 1e-7, "{row:?}");
+    assert!(
+        (num(4) - num(5) - num(6)).abs() < 1e-8,
+        "residual = observed − predicted"
+    );
+    // Profiles: time in h and depth in um as the file's header writes them.
+    let prof = dir.path().join("profiles");
+    fit_into("depth-profiles", &prof, &[]);
+    let text = std::fs::read_to_string(prof.join("fitted.csv")).unwrap();
+    let header = text.lines().next().unwrap();
+    assert!(
+        header.starts_with("dataset,line,time [h],position [um],observed [mol/m3]"),
+        "{header}"
+    );
+    let row: Vec<&str> = text.lines().nth(2).unwrap().split(',').collect();
+    // line 4 of profiles.csv: 1 h, 50 um, 966.365207 mol/m3
+    assert_eq!(row[1], "4");
+    assert!((row[2].parse::<f64>().unwrap() - 1.0).abs() < 1e-12);
+    assert!((row[3].parse::<f64>().unwrap() - 50.0).abs() < 1e-9);
+    assert!((row[4].parse::<f64>().unwrap() - 966.365207).abs() < 1e-6);
+}
+
+/// Send `signal` (a name for kill(1)) to a running fit after ~0.3 s.
+#[cfg(unix)]
+fn start_and_kill(out_dir: &Path, force: bool, signal: &str) {
+    let mut cmd = bin();
+    cmd.arg("fit")
+        .arg(sample("film-uptake"))
+        .args(["--profile", "--bootstrap", "2000", "--quiet", "--out"])
+        .arg(out_dir)
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::null());
+    if force {
+        cmd.arg("--force");
+    }
+    let mut child = cmd.spawn().unwrap();
+    std::thread::sleep(std::time::Duration::from_millis(300));
+    let still_running = child.try_wait().unwrap().is_none();
+    assert!(
+        still_running,
+        "the run ended within 0.3 s: the test would prove nothing"
+    );
+    if signal == "KILL" {
+        child.kill().unwrap();
+    } else {
+        let status = Command::new("kill")
+            .arg(format!("-{signal}"))
+            .arg(child.id().to_string())
+            .status()
+            .unwrap();
+        assert!(status.success());
+    }
+    let status = child.wait().unwrap();
+    assert!(!status.success(), "killed runs do not succeed");
+}
+
+#[cfg(unix)]
+#[test]
+fn a_killed_run_leaves_no_report_and_keeps_a_previous_one() {
+    let dir = tempfile::tempdir().unwrap();
+    for signal in ["KILL", "INT"] {
+        let fresh = dir.path().join(format!("fresh-{signal}"));
+        start_and_kill(&fresh, false, signal);
+        assert!(
+            visible_files(&fresh).is_empty(),
+            "{signal}: {:?} left in a new report folder",
+            visible_files(&fresh)
+        );
+
+        // A previous report, replaced with --force by a run that is killed mid-way.
+        let old = dir.path().join(format!("old-{signal}"));
+        fit_into("heated-rod", &old, &[]);
+        let before: Vec<(String, Vec<u8>)> = visible_files(&old)
+            .into_iter()
+            .map(|n| {
+                let bytes = std::fs::read(old.join(&n)).unwrap();
+                (n, bytes)
+            })
+            .collect();
+        assert!(before.iter().any(|(n, _)| n == "report.json"));
+        start_and_kill(&old, true, signal);
+        let after: Vec<(String, Vec<u8>)> = visible_files(&old)
+            .into_iter()
+            .map(|n| {
+                let bytes = std::fs::read(old.join(&n)).unwrap();
+                (n, bytes)
+            })
+            .collect();
+        assert!(before == after, "{signal}: the previous report changed");
+
+        // The next run into the same folders works and cleans up after the killed one.
+        fit_into("heated-rod", &fresh, &[]);
+        let hidden: Vec<_> = std::fs::read_dir(&fresh)
+            .unwrap()
+            .flatten()
+            .filter(|e| e.file_name().to_string_lossy().starts_with('.'))
+            .collect();
+        assert!(hidden.is_empty(), "{signal}: staging left behind");
+    }
+}
+
+#[test]
+fn no_progress_bar_when_stderr_is_not_a_terminal() {
+    // Here stderr is a pipe: the bar must stay hidden even without --quiet.
+    let dir = tempfile::tempdir().unwrap();
+    let out = bin()
+        .arg("fit")
+        .arg(sample("heated-rod"))
+        .args(["--bootstrap", "10", "--out"])
+        .arg(dir.path().join("r"))
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(0));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(!err.contains("bootstrap refits"), "{err}");
+    assert!(err.is_empty(), "{err}");
+    assert!(String::from_utf8_lossy(&out.stdout).contains("report written to"));
 }

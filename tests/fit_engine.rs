@@ -695,3 +695,58 @@ fn transformed_interval_of_a_log_parameter_is_positive_and_multiplicative() {
     let (i1, i2) = (a.interval.unwrap(), a.transformed_interval.unwrap());
     assert!((i1.lower - i2.lower).abs() < 1e-12 && (i1.upper - i2.upper).abs() < 1e-12);
 }
+
+/// For a model linear in its parameters, the profile of a parameter is exactly quadratic:
+/// ΔRSS(v) = (v − â)²/[(XᵀX)⁻¹]ⱼⱼ, so the F statistic ΔRSS/s² = ((v − â)/SE)² and the F-profile
+/// interval equals the Student-t interval because t²(n − p) = F(1, n − p) (N. R. Draper &
+/// H. Smith, *Applied Regression Analysis*, 3rd ed., 1998, §5.2; Bates & Watts 1988, §6.1.2 —
+/// from memory). Checks every point of the returned curve against that parabola.
+#[test]
+fn profile_curve_of_a_linear_model_is_the_parabola() {
+    let x: Vec<f64> = (0..15).map(|i| i as f64 * 0.5).collect();
+    let mut rng = StdRng::seed_from_u64(11);
+    let noise = Normal::new(0.0, 0.2).unwrap();
+    let y: Vec<f64> = x
+        .iter()
+        .map(|x| 1.5 + 0.8 * x + noise.sample(&mut rng))
+        .collect();
+    let problem = FnProblem::new(x.len(), move |p: &[f64], out: &mut [f64]| {
+        for i in 0..x.len() {
+            out[i] = y[i] - (p[0] + p[1] * x[i]);
+        }
+        Ok(())
+    });
+    let specs = vec![ParamSpec::new("a", "-", 0.0), ParamSpec::new("b", "-", 1.0)];
+    let opts = FitOptions {
+        profile: Some(ProfileOptions::default()),
+        ..FitOptions::default()
+    };
+    let res = fit(problem, specs, &opts).unwrap();
+    let t = t_quantile(0.975, 13.0).unwrap();
+    for k in 0..2 {
+        let p = &res.parameters[k];
+        let pr = p.profile.as_ref().unwrap();
+        let se = p.std_error.unwrap();
+        assert_eq!(pr.statistic, fickfit::fit::ProfileStatistic::F);
+        assert!(
+            (pr.statistic_threshold - t * t).abs() < 1e-9 * t * t,
+            "F(1, 13; 0.95) = t² = {}, found {}",
+            t * t,
+            pr.statistic_threshold
+        );
+        assert!(pr.points.len() >= 5, "{} points", pr.points.len());
+        for pt in &pr.points {
+            let expected = ((pt.value - p.estimate) / se).powi(2);
+            assert!(
+                (pt.statistic - expected).abs() < 1e-6 * (1.0 + expected),
+                "{}: at {} statistic {} expected {expected}",
+                p.name,
+                pt.value,
+                pt.statistic
+            );
+        }
+        let iv = p.interval.unwrap();
+        let (lo, hi) = (pr.lower.value().unwrap(), pr.upper.value().unwrap());
+        assert!((lo - iv.lower).abs() < 1e-6 * se && (hi - iv.upper).abs() < 1e-6 * se);
+    }
+}

@@ -91,7 +91,7 @@ pub struct FitArgs {
     /// Print the report as JSON on standard output instead of the summary table.
     #[arg(long)]
     pub json: bool,
-    /// Print nothing but errors.
+    /// Print nothing but errors (and no progress bar).
     #[arg(long, short)]
     pub quiet: bool,
 }

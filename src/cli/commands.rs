@@ -54,28 +54,18 @@ pub fn fit(args: &FitArgs) -> anyhow::Result<Outcome> {
         .iter()
         .map(|p| load(p).map(|(e, _)| e))
         .collect::<anyhow::Result<Vec<_>>>()?;
-    // A spinner with the elapsed time on stderr for the long extras; hidden when stderr is
-    // not a terminal or with --quiet.
-    let spinner = if (args.profile || args.bootstrap > 0) && !args.quiet && !args.json {
-        let bar = indicatif::ProgressBar::new_spinner();
-        let what = match (args.profile, args.bootstrap) {
-            (true, 0) => "profile-likelihood intervals".to_string(),
-            (false, n) => format!("{n} bootstrap refits"),
-            (true, n) => format!("profile-likelihood intervals and {n} bootstrap refits"),
-        };
-        bar.set_message(format!("fitting, with {what}"));
-        bar.enable_steady_tick(std::time::Duration::from_millis(200));
-        if let Ok(style) = indicatif::ProgressStyle::with_template("{spinner} {msg} ({elapsed})") {
-            bar.set_style(style);
-        }
-        Some(bar)
+    // A progress bar on stderr for the long extras (profile sides, bootstrap refits); hidden
+    // when stderr is not a terminal, none with --quiet or --json.
+    let analysis = if (args.profile || args.bootstrap > 0) && !args.quiet && !args.json {
+        let bar = Arc::new(super::progress::Bar::new("fitting"));
+        let analysis = fickfit::fit::progress::observe(bar.clone(), || {
+            analyse(Arc::new(experiment), &options)
+        });
+        bar.clear();
+        analysis
     } else {
-        None
+        analyse(Arc::new(experiment), &options)
     };
-    let analysis = analyse(Arc::new(experiment), &options);
-    if let Some(bar) = spinner {
-        bar.finish_and_clear();
-    }
     let analysis = analysis?;
     let mut report = Report::new(&analysis, &bytes);
     if !variants.is_empty() {
@@ -103,32 +93,50 @@ pub fn fit(args: &FitArgs) -> anyhow::Result<Outcome> {
     })?;
     folder.write_with("fitted.csv", |w| fitted::write_fitted(&analysis, w))?;
     // Figures: SVG and PNG files, and the same SVGs inline in report.html.
-    let mut rendered = Vec::new();
-    for fig in fickfit::report::figures::figures(&analysis)? {
-        let svg = fickfit::report::plot::to_svg(&fig.figure)?.svg;
-        folder.write_with(&format!("{}.svg", fig.stem), |w| {
-            w.write_all(svg.as_bytes())
-        })?;
-        fickfit::report::plot::to_png(
-            &fig.figure,
-            folder.path().join(format!("{}.png", fig.stem)),
-        )?;
-        rendered.push((fig, svg));
-    }
+    let draw = |figures: Vec<fickfit::report::figures::NamedFigure>| {
+        let mut rendered = Vec::new();
+        for fig in figures {
+            let svg = fickfit::report::plot::to_svg(&fig.figure)?.svg;
+            folder.write_with(&format!("{}.svg", fig.stem), |w| {
+                w.write_all(svg.as_bytes())
+            })?;
+            fickfit::report::plot::to_png(
+                &fig.figure,
+                folder.staged(&format!("{}.png", fig.stem)),
+            )?;
+            rendered.push((fig, svg));
+        }
+        anyhow::Ok(rendered)
+    };
+    let rendered = draw(fickfit::report::figures::figures(&analysis)?)?;
+    let profiles = draw(fickfit::report::figures::profile_figures(&report))?;
     let correlation = fickfit::report::figures::correlation(&analysis)?;
     if let Some(svg) = &correlation {
         folder.write_with("correlation.svg", |w| w.write_all(svg.as_bytes()))?;
+        fickfit::report::figures::correlation_png_file(
+            &analysis,
+            &folder.staged("correlation.png"),
+        )?;
     }
     let command = std::env::args().collect::<Vec<_>>().join(" ");
-    let page = fickfit::report::html::render(&report, &rendered, correlation.as_deref(), &command);
+    let page = fickfit::report::html::render(
+        &report,
+        &rendered,
+        &profiles,
+        correlation.as_deref(),
+        &command,
+    );
     folder.write_with("report.html", |w| w.write_all(page.as_bytes()))?;
+    // Everything is written: only now does the report appear in the folder.
+    let folder_path = folder.path().to_path_buf();
+    folder.commit()?;
     let mut stdout = std::io::stdout().lock();
     if args.json {
         serde_json::to_writer_pretty(&mut stdout, &report)?;
         writeln!(stdout)?;
     } else if !args.quiet {
         terminal::write_summary(&report, &mut stdout)?;
-        writeln!(stdout, "\nreport written to {}", folder.path().display())?;
+        writeln!(stdout, "\nreport written to {}", folder_path.display())?;
     }
     Ok(if report.fit.converged {
         Outcome::Success
@@ -346,7 +354,8 @@ pub fn arrhenius(args: &ArrheniusArgs) -> anyhow::Result<Outcome> {
         temperatures.as_deref(),
         args.level,
     )?;
-    if let Some(folder) = &folder {
+    let written = folder.map(|f| f.path().to_path_buf());
+    if let Some(folder) = folder {
         folder.write_with("arrhenius.json", |w| {
             serde_json::to_writer_pretty(&mut *w, &report).map_err(std::io::Error::other)?;
             writeln!(w)
@@ -354,7 +363,8 @@ pub fn arrhenius(args: &ArrheniusArgs) -> anyhow::Result<Outcome> {
         let fig = fickfit::arrhenius::figure(&report);
         let svg = fickfit::report::plot::to_svg(&fig)?.svg;
         folder.write_with("arrhenius.svg", |w| w.write_all(svg.as_bytes()))?;
-        fickfit::report::plot::to_png(&fig, folder.path().join("arrhenius.png"))?;
+        fickfit::report::plot::to_png(&fig, folder.staged("arrhenius.png"))?;
+        folder.commit()?;
     }
     let mut out = std::io::stdout().lock();
     if args.json {
@@ -413,8 +423,8 @@ pub fn arrhenius(args: &ArrheniusArgs) -> anyhow::Result<Outcome> {
             }
         )?;
     }
-    if let Some(f) = &folder {
-        writeln!(out, "written to {}", f.path().display())?;
+    if let Some(dir) = &written {
+        writeln!(out, "written to {}", dir.display())?;
     }
     Ok(Outcome::Success)
 }

@@ -3,6 +3,7 @@
 
 pub mod args;
 pub mod commands;
+pub mod progress;
 
 use std::io::{self, Write};
 

@@ -38,6 +38,7 @@
 
 pub mod checks;
 mod table;
+pub use table::read_header_units;
 
 use std::collections::HashMap;
 use std::fs::File;

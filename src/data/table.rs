@@ -488,6 +488,41 @@ impl<R: Read> Read for LineFilter<R> {
     }
 }
 
+/// The header of the data file at `path` as `(column name, unit as written)` pairs, read
+/// with the same rules as the loaders (comments, BOM, delimiter detection). For reports that
+/// show values in the units of the file.
+pub fn read_header_units(path: &Path) -> Result<Vec<(String, Option<String>)>> {
+    let file = std::fs::File::open(path).map_err(|source| Error::Io {
+        path: path.to_path_buf(),
+        source,
+    })?;
+    let map = Rc::new(RefCell::new(LineMap::default()));
+    let mut filter = LineFilter::new(file, Rc::clone(&map));
+    let unreadable = |e: std::io::Error| Error::Io {
+        path: path.to_path_buf(),
+        source: e,
+    };
+    if !filter.next_line().map_err(unreadable)? || filter.utf16 {
+        return Ok(Vec::new());
+    }
+    let delimiter = detect_delimiter(filter.current());
+    let mut rdr = csv::ReaderBuilder::new()
+        .has_headers(false)
+        .flexible(true)
+        .delimiter(delimiter)
+        .from_reader(filter);
+    let mut rec = csv::ByteRecord::new();
+    if !rdr.read_byte_record(&mut rec).unwrap_or(false) {
+        return Ok(Vec::new());
+    }
+    let header = parse_header(&rec, path, map.borrow().original(1))?;
+    Ok(header
+        .cols
+        .into_iter()
+        .map(|c| (split_header(&c.text).0.to_string(), c.unit))
+        .collect())
+}
+
 fn parse_header(rec: &csv::ByteRecord, file: &Path, line: u64) -> Result<Header> {
     let mut cells: Vec<&[u8]> = rec.iter().collect();
     while cells.last().is_some_and(|c| trim_ascii(c).is_empty()) {

@@ -128,6 +128,8 @@ pub fn bootstrap<P: ResidualProblem>(
         .step_by(chunk)
         .map(|s| (s..(s + chunk).min(bo.replicates), problem.clone()))
         .collect();
+    let progress =
+        crate::fit::progress::Counter::start(crate::fit::progress::Stage::Bootstrap, bo.replicates);
     let results: Vec<Option<Vec<f64>>> = jobs
         .into_par_iter()
         .map(|(range, prob)| {
@@ -150,10 +152,12 @@ pub fn bootstrap<P: ResidualProblem>(
                     let full = ev.external(&out.u);
                     Some(set.free_indices().iter().map(|&i| full[i]).collect())
                 })
+                .inspect(|_| progress.advance())
                 .collect::<Vec<_>>()
         })
         .flatten()
         .collect();
+    progress.finish();
     let samples: Vec<Vec<f64>> = results.into_iter().flatten().collect();
     let failed = bo.replicates - samples.len();
     let alpha = 1.0 - opts.level;

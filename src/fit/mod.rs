@@ -18,6 +18,7 @@ pub mod nelder_mead;
 pub mod params;
 pub mod problem;
 pub mod profile;
+pub mod progress;
 
 pub use bootstrap::{BootstrapOptions, BootstrapSummary};
 pub use compare::{rank_models, ModelSummary, RankedModel};
@@ -26,4 +27,4 @@ pub use jacobian::Difference;
 pub use lm::{LmOptions, StopReason};
 pub use params::{ParamSet, ParamSpec, Transform};
 pub use problem::{DatasetRange, FnProblem, ResidualProblem};
-pub use profile::{ProfileEnd, ProfileInterval, ProfileOptions};
+pub use profile::{ProfileEnd, ProfileInterval, ProfileOptions, ProfilePoint, ProfileStatistic};

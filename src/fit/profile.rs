@@ -13,6 +13,13 @@
 //! within `max_steps` steps (or where the model stops evaluating) is reported unbounded.
 //! Parameters are profiled in parallel, one copy of the problem per parameter.
 //!
+//! Besides the ends, every point computed on the way is returned as the profile curve
+//! ([`ProfilePoint`]): the parameter value, the profile RSS and the likelihood-ratio
+//! statistic `Λ(v) = (RSS_j(v) − RSS_min)/s²` with `s² = RSS_min/(n − p)` (σ unknown or
+//! rescaled; compared with `F(1, n − p; level)`) or `s² = 1` (absolute σ; compared with
+//! `χ²(1; level)`), so that the curve crosses [`ProfileInterval::statistic_threshold`]
+//! exactly where the RSS crosses [`ProfileInterval::threshold`].
+//!
 //! References: D. M. Bates & D. G. Watts, *Nonlinear Regression Analysis and Its
 //! Applications* (1988), §6.1; D. J. Venzon & S. H. Moolgavkar, Appl. Stat. 37 (1988) 87–94;
 //! M. Dowell & P. Jarratt, BIT 11 (1971) 168–174 (Illinois method).
@@ -71,6 +78,26 @@ impl ProfileEnd {
     }
 }
 
+/// One computed point of a profile curve.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct ProfilePoint {
+    /// Parameter value (SI).
+    pub value: f64,
+    /// Profile residual sum of squares `RSS_j(value)` (weighted).
+    pub rss: f64,
+    /// Likelihood-ratio statistic `Λ = (RSS_j − RSS_min)/s²` (dimensionless).
+    pub statistic: f64,
+}
+
+/// Which distribution the likelihood-ratio statistic is compared with.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+pub enum ProfileStatistic {
+    /// `Λ = ΔRSS/(RSS_min/(n − p))` against `F(1, n − p; level)` (σ estimated from the fit).
+    F,
+    /// `Λ = ΔRSS` (= Δχ²) against `χ²(1; level)` (absolute σ, not rescaled).
+    ChiSquare,
+}
+
 /// Profile-likelihood interval of one parameter.
 #[derive(Debug, Clone, Serialize)]
 pub struct ProfileInterval {
@@ -82,6 +109,12 @@ pub struct ProfileInterval {
     pub upper: ProfileEnd,
     /// Threshold on the RSS.
     pub threshold: f64,
+    /// Kind of the likelihood-ratio statistic of `points`.
+    pub statistic: ProfileStatistic,
+    /// Threshold on the statistic (`F(1, n − p; level)` or `χ²(1; level)`).
+    pub statistic_threshold: f64,
+    /// The computed points of the profile, the optimum included, sorted by value.
+    pub points: Vec<ProfilePoint>,
     /// Plain sentence.
     pub message: String,
 }
@@ -112,6 +145,9 @@ fn profile_point<P: ResidualProblem>(
     out.rss.is_finite().then_some((out.rss, out.u))
 }
 
+/// Follow the profile from the optimum in steps of `h` (internal units) until it crosses
+/// `threshold`; the crossing (internal units, `None`: none found) and every computed
+/// `(internal value, RSS)`, the crossing included.
 #[allow(clippy::too_many_arguments)]
 fn profile_side<P: ResidualProblem>(
     problem: &P,
@@ -122,6 +158,28 @@ fn profile_side<P: ResidualProblem>(
     threshold: f64,
     opts: &FitOptions,
     po: &ProfileOptions,
+) -> (Option<f64>, Vec<(f64, f64)>) {
+    let mut points = Vec::new();
+    let end = profile_search(problem, set, k, u_hat, h, threshold, opts, po, &mut points);
+    if let Some(v) = end {
+        // The crossing lies on the threshold by construction (to the search tolerance).
+        points.push((v, threshold));
+    }
+    (end, points)
+}
+
+/// The search of [`profile_side`]; every computed `(internal value, RSS)` goes to `points`.
+#[allow(clippy::too_many_arguments)]
+fn profile_search<P: ResidualProblem>(
+    problem: &P,
+    set: &ParamSet,
+    k: usize,
+    u_hat: &[f64],
+    h: f64,
+    threshold: f64,
+    opts: &FitOptions,
+    po: &ProfileOptions,
+    points: &mut Vec<(f64, f64)>,
 ) -> Option<f64> {
     let others = |u: &[f64]| -> Vec<f64> {
         u.iter()
@@ -139,6 +197,7 @@ fn profile_side<P: ResidualProblem>(
     for i in 1..=po.max_steps {
         let v = v0 + h * i as f64;
         let (rss, warm) = profile_point(problem, set, k, v, &prev.2, opts)?;
+        points.push((v, rss));
         if rss >= threshold {
             // Illinois regula falsi between prev (below) and v (above)
             let (mut a, mut fa) = (prev.0, prev.1 - threshold);
@@ -156,6 +215,7 @@ fn profile_side<P: ResidualProblem>(
                     0.5 * (a + b)
                 };
                 let (rc, wc) = profile_point(problem, set, k, c, &warm_a, opts)?;
+                points.push((c, rc));
                 let fc = rc - threshold;
                 if fc == 0.0 {
                     return Some(c);
@@ -196,10 +256,23 @@ pub fn profile_all<P: ResidualProblem>(
     opts: &FitOptions,
     po: &ProfileOptions,
 ) -> Result<Vec<ProfileInterval>> {
-    let threshold = match opts.weighting {
-        Weighting::Absolute { rescale: false } => rss_min + chi2_quantile(opts.level, 1.0)?,
-        _ => rss_min * (1.0 + f1_quantile(opts.level, dof as f64)? / dof as f64),
+    let (statistic, statistic_threshold, s2) = match opts.weighting {
+        Weighting::Absolute { rescale: false } => (
+            ProfileStatistic::ChiSquare,
+            chi2_quantile(opts.level, 1.0)?,
+            1.0,
+        ),
+        _ => (
+            ProfileStatistic::F,
+            f1_quantile(opts.level, dof as f64)?,
+            rss_min / dof as f64,
+        ),
     };
+    let threshold = rss_min + statistic_threshold * s2;
+    let progress = crate::fit::progress::Counter::start(
+        crate::fit::progress::Stage::Profile,
+        2 * set.n_free(),
+    );
     let names = set.free_names();
     let copies: Vec<(usize, P)> = (0..set.n_free()).map(|k| (k, problem.clone())).collect();
     let out = copies
@@ -210,10 +283,24 @@ pub fn profile_all<P: ResidualProblem>(
                 _ => po.fallback_step * u_hat[k].abs().max(1.0),
             };
             let map = set.maps()[k];
-            let up = profile_side(&prob, set, k, u_hat, h, threshold, opts, po)
-                .map(|v| map.to_external(v));
-            let down = profile_side(&prob, set, k, u_hat, -h, threshold, opts, po)
-                .map(|v| map.to_external(v));
+            let (up, mut raw) = profile_side(&prob, set, k, u_hat, h, threshold, opts, po);
+            progress.advance();
+            let up = up.map(|v| map.to_external(v));
+            let (down, raw_down) = profile_side(&prob, set, k, u_hat, -h, threshold, opts, po);
+            progress.advance();
+            let down = down.map(|v| map.to_external(v));
+            raw.extend(raw_down);
+            raw.push((u_hat[k], rss_min));
+            let mut points: Vec<ProfilePoint> = raw
+                .into_iter()
+                .map(|(v, rss)| ProfilePoint {
+                    value: map.to_external(v),
+                    rss,
+                    statistic: (rss - rss_min) / s2,
+                })
+                .filter(|p| p.value.is_finite() && p.rss.is_finite())
+                .collect();
+            points.sort_by(|a, b| a.value.total_cmp(&b.value));
             // the map may be decreasing (upper bound only): order the ends by value
             let (lo, hi) = match (down, up) {
                 (Some(a), Some(b)) if a > b => (Some(b), Some(a)),
@@ -240,9 +327,13 @@ pub fn profile_all<P: ResidualProblem>(
                 lower,
                 upper,
                 threshold,
+                statistic,
+                statistic_threshold,
+                points,
                 message,
             }
         })
         .collect();
+    progress.finish();
     Ok(out)
 }

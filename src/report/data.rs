@@ -9,6 +9,7 @@ use crate::analysis::shortcuts::ShortcutEstimate;
 use crate::analysis::Analysis;
 use crate::experiment::quantity::value_unit;
 use crate::experiment::Experiment;
+use crate::fit::profile::ProfileStatistic;
 use serde::Serialize;
 use sha2::{Digest, Sha256};
 
@@ -92,8 +93,8 @@ pub struct ParameterRow {
     pub ci_transformed: Option<IntervalRow>,
     /// True when held at its given value.
     pub fixed: bool,
-    /// Profile-likelihood interval (null ends: no crossing found), when computed.
-    pub profile: Option<IntervalRow>,
+    /// Profile-likelihood interval (null ends: no crossing found) and its curve, when computed.
+    pub profile: Option<ProfileRow>,
     /// Bootstrap percentile interval, when computed.
     pub bootstrap: Option<IntervalRow>,
     /// Estimate in SI.
@@ -113,6 +114,33 @@ pub struct IntervalRow {
     pub low: Option<f64>,
     /// Upper end (null when unbounded).
     pub high: Option<f64>,
+}
+
+/// A profile-likelihood interval with the computed points of its curve.
+#[derive(Debug, Clone, Serialize)]
+pub struct ProfileRow {
+    /// Lower end in the parameter's unit (null when unbounded).
+    pub low: Option<f64>,
+    /// Upper end in the parameter's unit (null when unbounded).
+    pub high: Option<f64>,
+    /// The likelihood-ratio statistic of `points`: `"F"` (ΔRSS/(RSS_min/(n − p)), σ estimated
+    /// from the fit) or `"chi_square"` (ΔRSS = Δχ², absolute σ).
+    pub statistic: &'static str,
+    /// Threshold on the statistic at the confidence level (F(1, n − p; level) or χ²(1; level)).
+    pub threshold: Option<f64>,
+    /// The computed points, sorted by value; the optimum is one of them.
+    pub points: Vec<ProfilePointRow>,
+}
+
+/// One point of a profile curve.
+#[derive(Debug, Clone, Serialize)]
+pub struct ProfilePointRow {
+    /// Parameter value in the parameter's unit.
+    pub value: Option<f64>,
+    /// Profile residual sum of squares (weighted), with the other parameters re-optimised.
+    pub rss: Option<f64>,
+    /// Likelihood-ratio statistic (dimensionless; 0 at the optimum).
+    pub statistic: Option<f64>,
 }
 
 /// Fit quality.
@@ -239,9 +267,23 @@ impl Report {
                         high: in_unit(e, k, t.upper),
                     }),
                 fixed: !p.free,
-                profile: p.profile.as_ref().map(|pi| IntervalRow {
+                profile: p.profile.as_ref().map(|pi| ProfileRow {
                     low: pi.lower.value().and_then(|v| in_unit(e, k, v)),
                     high: pi.upper.value().and_then(|v| in_unit(e, k, v)),
+                    statistic: match pi.statistic {
+                        ProfileStatistic::F => "F",
+                        ProfileStatistic::ChiSquare => "chi_square",
+                    },
+                    threshold: finite(pi.statistic_threshold),
+                    points: pi
+                        .points
+                        .iter()
+                        .map(|pt| ProfilePointRow {
+                            value: in_unit(e, k, pt.value),
+                            rss: finite(pt.rss),
+                            statistic: finite(pt.statistic),
+                        })
+                        .collect(),
                 }),
                 bootstrap: p.bootstrap.as_ref().map(|i| IntervalRow {
                     low: in_unit(e, k, i.lower),

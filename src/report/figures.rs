@@ -1,8 +1,14 @@
 //! The figures of a fit report, built from an [`Analysis`] as plain [`Figure`]s: data and
 //! model for every dataset, residuals, a normal Q–Q plot of the standardised residuals and the
-//! correlation matrix. Values are shown in the units written in the experiment file.
+//! correlation matrix; and, when profile-likelihood intervals were computed, one small panel
+//! per free parameter with its profile curve. Values are shown in the units written in the
+//! experiment file.
 
-use super::plot::{correlation_svg, qq_figure, residual_figure, Figure, LegendPosition, Series};
+use super::data::Report;
+use super::plot::{
+    correlation_svg, profile_figure, qq_figure, residual_figure, Figure, GuideKind, LegendPosition,
+    ProfileCurve, Series,
+};
 use crate::analysis::Analysis;
 use crate::error::Result;
 use crate::experiment::quantity::value_unit;
@@ -255,9 +261,30 @@ pub fn figures(analysis: &Analysis) -> Result<Vec<NamedFigure>> {
 
 /// The correlation matrix as an SVG heat map, when there are at least two free parameters.
 pub fn correlation(analysis: &Analysis) -> Result<Option<String>> {
+    match correlation_matrix(analysis) {
+        Some((names, m)) => Ok(Some(correlation_svg(names, &m)?.svg)),
+        None => Ok(None),
+    }
+}
+
+/// The correlation matrix as a PNG heat map at `path`, when there are at least two free
+/// parameters; true when written.
+pub fn correlation_png_file(analysis: &Analysis, path: &std::path::Path) -> Result<bool> {
+    match correlation_matrix(analysis) {
+        Some((names, m)) => {
+            super::plot::correlation_png(names, &m, path)?;
+            Ok(true)
+        }
+        None => Ok(false),
+    }
+}
+
+/// Names and entries (NaN where undefined) of the correlation matrix, with ≥ 2 free
+/// parameters.
+fn correlation_matrix(analysis: &Analysis) -> Option<(&[String], Vec<Vec<f64>>)> {
     let names = &analysis.fit.free_names;
     if names.len() < 2 {
-        return Ok(None);
+        return None;
     }
     let m: Vec<Vec<f64>> = analysis
         .fit
@@ -266,5 +293,92 @@ pub fn correlation(analysis: &Analysis) -> Result<Option<String>> {
         .iter()
         .map(|r| r.iter().map(|v| v.unwrap_or(f64::NAN)).collect())
         .collect();
-    Ok(Some(correlation_svg(names, &m)?.svg))
+    Some((names, m))
+}
+
+/// Width of one profile-likelihood panel, pixels.
+pub const PROFILE_PANEL_WIDTH: u32 = 420;
+/// Height of one profile-likelihood panel, pixels.
+pub const PROFILE_PANEL_HEIGHT: u32 = 320;
+
+/// A file-name-safe stem for a parameter name (`M_inf[sorption]` → `M_inf-sorption`).
+fn file_stem(name: &str) -> String {
+    let s: String = name
+        .chars()
+        .map(|c| {
+            if c.is_ascii_alphanumeric() || c == '_' || c == '-' {
+                c
+            } else {
+                '-'
+            }
+        })
+        .collect();
+    s.trim_matches('-').to_string()
+}
+
+/// One small figure per parameter whose profile was computed: the likelihood-ratio statistic
+/// against the parameter value in the parameter's unit (line with markers), the threshold at
+/// the confidence level (dashed), and the interval ends (dotted verticals and open markers on
+/// the threshold). Empty when no profile was computed.
+pub fn profile_figures(report: &Report) -> Vec<NamedFigure> {
+    let mut out = Vec::new();
+    for p in &report.parameters {
+        let Some(pr) = &p.profile else { continue };
+        let (values, delta): (Vec<f64>, Vec<f64>) = pr
+            .points
+            .iter()
+            .filter_map(|pt| Some((pt.value?, pt.statistic?)))
+            .unzip();
+        let objective = match pr.statistic {
+            "chi_square" => "Δχ² [–]",
+            _ => "ΔRSS/s² [–]",
+        };
+        let parameter = if p.unit.is_empty() {
+            format!("{} [–]", p.name)
+        } else {
+            format!("{} [{}]", p.name, p.unit)
+        };
+        let curve = ProfileCurve {
+            parameter,
+            objective: objective.to_string(),
+            values,
+            delta,
+            threshold: pr.threshold.unwrap_or(f64::NAN),
+            lower: pr.low,
+            upper: pr.high,
+            level: p.ci_level,
+        };
+        let mut figure =
+            profile_figure(&curve).with_size(PROFILE_PANEL_WIDTH, PROFILE_PANEL_HEIGHT);
+        figure.title = format!("Profile of {}", p.name);
+        // Short legend entries, so the box stays clear of the curve in a small panel; the
+        // numbers are in the tables of the report.
+        for g in &mut figure.guides {
+            g.label = match g.kind {
+                GuideKind::Horizontal => format!("threshold {}", short(curve.threshold)),
+                GuideKind::Vertical => String::new(),
+            };
+        }
+        let ends: Vec<f64> = [pr.low, pr.high].into_iter().flatten().collect();
+        if !ends.is_empty() {
+            let y = vec![curve.threshold; ends.len()];
+            let label = format!("{} % interval ends", short(100.0 * p.ci_level));
+            figure.series.push(Series::markers(label, ends, y));
+        }
+        let stat = match pr.statistic {
+            "chi_square" => "Δχ² (absolute σ)",
+            _ => "ΔRSS/s² (σ estimated from the fit; F threshold)",
+        };
+        out.push(NamedFigure {
+            stem: format!("profile-{}", file_stem(&p.name)),
+            caption: format!(
+                "{}: profile likelihood, {stat} with the other parameters re-optimised; the \
+                 {} % interval is where the curve stays below the dashed threshold.",
+                p.name,
+                short(100.0 * p.ci_level)
+            ),
+            figure,
+        });
+    }
+    out
 }

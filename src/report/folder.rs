@@ -1,23 +1,67 @@
 //! Writing a report folder without losing anything the user owns.
 //!
-//! The folder must not exist, or be empty, unless the caller allows replacing files. Every file
-//! is written to a temporary name in the same folder and renamed into place, so an interrupted
-//! run never leaves a half-written file and never truncates an existing one.
+//! The folder must not exist, or be empty, unless the caller allows replacing files. The files
+//! of a report are first written into a hidden staging folder inside it
+//! (`.fickfit-staging-<process id>`) and moved into place together by
+//! [`ReportFolder::commit`], only after every file was written. So a run that fails or is
+//! killed before the commit leaves no report file at all, and the files of a previous report
+//! (with `--force`) stay as they were; the renames of the commit take microseconds. A staging
+//! folder left by a killed run is hidden, ignored when judging whether the folder is empty, and
+//! removed by the next run into the same folder (on Linux, once its process is gone). A single
+//! file outside a report ([`write_atomic`]) goes through a temporary sibling and a rename.
 
 use crate::error::{Error, InputKind, Location, Result};
 use std::fs;
 use std::io::Write;
 use std::path::{Path, PathBuf};
 
+/// Prefix of the hidden staging folder.
+const STAGING_PREFIX: &str = ".fickfit-staging-";
+
 /// A report folder being written.
 #[derive(Debug)]
 pub struct ReportFolder {
     dir: PathBuf,
+    staging: PathBuf,
+    created: bool,
+    committed: bool,
+}
+
+/// True for the name of a staging folder (ours or a killed run's).
+fn is_staging(name: &std::ffi::OsStr) -> bool {
+    name.to_string_lossy().starts_with(STAGING_PREFIX)
+}
+
+/// Remove staging folders left by runs that are gone (known only where `/proc` exists).
+fn remove_stale_staging(dir: &Path) {
+    let proc = Path::new("/proc");
+    if !proc.is_dir() {
+        return;
+    }
+    let Ok(entries) = fs::read_dir(dir) else {
+        return;
+    };
+    for entry in entries.flatten() {
+        let name = entry.file_name();
+        let name = name.to_string_lossy();
+        let Some(pid) = name.strip_prefix(STAGING_PREFIX) else {
+            continue;
+        };
+        if pid.parse::<u32>().is_ok() && !proc.join(pid).exists() {
+            let _ = fs::remove_dir_all(entry.path());
+        }
+    }
 }
 
 impl ReportFolder {
     /// Open `dir` for writing: create it if missing; refuse a non-empty folder unless `force`.
+    /// Nothing is visible in `dir` until [`ReportFolder::commit`].
     pub fn create(dir: &Path, force: bool) -> Result<Self> {
+        let io_err = |source| Error::Io {
+            path: dir.to_path_buf(),
+            source,
+        };
+        let mut created = false;
         if dir.exists() {
             if !dir.is_dir() {
                 return Err(Error::input(
@@ -27,12 +71,9 @@ impl ReportFolder {
                 ));
             }
             let non_empty = fs::read_dir(dir)
-                .map_err(|source| Error::Io {
-                    path: dir.to_path_buf(),
-                    source,
-                })?
-                .next()
-                .is_some();
+                .map_err(io_err)?
+                .flatten()
+                .any(|e| !is_staging(&e.file_name()));
             if non_empty && !force {
                 return Err(Error::input(
                     InputKind::BadValue,
@@ -40,29 +81,82 @@ impl ReportFolder {
                     "the report folder exists and is not empty; name a new folder, or add --force to replace the report files in it",
                 ));
             }
+            remove_stale_staging(dir);
         } else {
-            fs::create_dir_all(dir).map_err(|source| Error::Io {
-                path: dir.to_path_buf(),
-                source,
-            })?;
+            fs::create_dir_all(dir).map_err(io_err)?;
+            created = true;
         }
+        let staging = dir.join(format!("{STAGING_PREFIX}{}", std::process::id()));
+        if staging.exists() {
+            fs::remove_dir_all(&staging).map_err(io_err)?;
+        }
+        fs::create_dir(&staging).map_err(io_err)?;
         Ok(ReportFolder {
             dir: dir.to_path_buf(),
+            staging,
+            created,
+            committed: false,
         })
     }
 
-    /// The folder.
+    /// The folder the report ends up in.
     pub fn path(&self) -> &Path {
         &self.dir
     }
 
-    /// Write `name` atomically with the bytes produced by `fill`.
+    /// Where a file of the report is written before the commit (for writers that take a
+    /// path, such as the PNG encoder).
+    pub fn staged(&self, name: &str) -> PathBuf {
+        self.staging.join(name)
+    }
+
+    /// Write `name` (into the staging folder) with the bytes produced by `fill`.
     pub fn write_with(
         &self,
         name: &str,
         fill: impl FnOnce(&mut dyn Write) -> std::io::Result<()>,
     ) -> Result<PathBuf> {
-        write_atomic(&self.dir.join(name), fill)
+        write_atomic(&self.staged(name), fill)
+    }
+
+    /// Move every staged file into the folder (replacing files of the same name) and remove
+    /// the staging folder. Returns the names moved, sorted.
+    pub fn commit(mut self) -> Result<Vec<String>> {
+        let io_err = |path: &Path| {
+            let path = path.to_path_buf();
+            move |source| Error::Io { path, source }
+        };
+        let mut names: Vec<String> = fs::read_dir(&self.staging)
+            .map_err(io_err(&self.staging))?
+            .flatten()
+            .filter(|e| e.path().is_file())
+            .map(|e| e.file_name().to_string_lossy().into_owned())
+            // A writer's own temporary file (hidden) is not part of the report.
+            .filter(|n| !n.starts_with('.'))
+            .collect();
+        names.sort();
+        for n in &names {
+            let target = self.dir.join(n);
+            fs::rename(self.staging.join(n), &target).map_err(io_err(&target))?;
+        }
+        fs::remove_dir_all(&self.staging).map_err(io_err(&self.staging))?;
+        self.committed = true;
+        Ok(names)
+    }
+}
+
+impl Drop for ReportFolder {
+    /// Without a commit (an error on the way), remove what was staged, and the folder itself
+    /// when this run created it and it is empty.
+    fn drop(&mut self) {
+        if self.committed {
+            return;
+        }
+        let _ = fs::remove_dir_all(&self.staging);
+        if self.created {
+            // Fails, harmlessly, when something else was put there meanwhile.
+            let _ = fs::remove_dir(&self.dir);
+        }
     }
 }
 
@@ -111,6 +205,9 @@ mod tests {
         assert!(e.to_string().contains("--force"), "{e}");
         let f = ReportFolder::create(dir.path(), true).unwrap();
         f.write_with("report.json", |w| w.write_all(b"{}")).unwrap();
+        // nothing is visible before the commit
+        assert!(!dir.path().join("report.json").exists());
+        assert_eq!(f.commit().unwrap(), vec!["report.json".to_string()]);
         assert_eq!(
             fs::read_to_string(dir.path().join("notes.txt")).unwrap(),
             "mine"
@@ -119,6 +216,44 @@ mod tests {
             fs::read_to_string(dir.path().join("report.json")).unwrap(),
             "{}"
         );
+    }
+
+    #[test]
+    fn uncommitted_report_leaves_nothing_and_keeps_old_files() {
+        let parent = tempfile::tempdir().unwrap();
+        let fresh = parent.path().join("new-report");
+        {
+            let f = ReportFolder::create(&fresh, false).unwrap();
+            f.write_with("report.json", |w| w.write_all(b"{}")).unwrap();
+        }
+        assert!(
+            !fresh.exists(),
+            "a folder this run created is removed again"
+        );
+        let old = parent.path().join("old-report");
+        fs::create_dir(&old).unwrap();
+        fs::write(old.join("report.json"), "old").unwrap();
+        {
+            let f = ReportFolder::create(&old, true).unwrap();
+            f.write_with("report.json", |w| w.write_all(b"new"))
+                .unwrap();
+        }
+        assert_eq!(fs::read_to_string(old.join("report.json")).unwrap(), "old");
+        assert_eq!(fs::read_dir(&old).unwrap().count(), 1);
+    }
+
+    #[test]
+    fn a_killed_runs_staging_folder_does_not_count_and_is_removed() {
+        let dir = tempfile::tempdir().unwrap();
+        // A process id far above any Linux pid_max (4 194 304): no such process.
+        let stale = dir.path().join(format!("{STAGING_PREFIX}999999999"));
+        fs::create_dir(&stale).unwrap();
+        fs::write(stale.join("report.json"), "half").unwrap();
+        let f = ReportFolder::create(dir.path(), false).unwrap();
+        if Path::new("/proc").is_dir() {
+            assert!(!stale.exists());
+        }
+        f.commit().unwrap();
     }
 
     #[test]

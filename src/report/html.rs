@@ -35,12 +35,15 @@ h1{font-size:1.5rem}h2{font-size:1.15rem;margin-top:2rem;border-bottom:1px solid
 table{border-collapse:collapse;margin:.5rem 0}td,th{padding:.2rem .6rem;border-bottom:1px solid #ddd;text-align:right}\
 td:first-child,th:first-child{text-align:left}figure{margin:1rem 0}figcaption{font-size:.9rem;color:#444}\
 .warn{background:#fff4d6;border-left:4px solid #c98a00;padding:.4rem .8rem;margin:.3rem 0}\
-.caution{background:#f3f3f3;border-left:4px solid #555;padding:.6rem .9rem}code{font-size:.92em}";
+.caution{background:#f3f3f3;border-left:4px solid #555;padding:.6rem .9rem}code{font-size:.92em}\
+.panels{display:flex;flex-wrap:wrap;gap:1rem}.panels figure{flex:0 1 27rem;margin:0}svg{max-width:100%;height:auto}";
 
-/// Render the report. `command` is the command line that reproduces it.
+/// Render the report. `profiles` are the small profile-likelihood panels (empty without
+/// `--profile`), shown side by side. `command` is the command line that reproduces it.
 pub fn render(
     report: &Report,
     figures: &[(NamedFigure, String)],
+    profiles: &[(NamedFigure, String)],
     correlation_svg: Option<&str>,
     command: &str,
 ) -> String {
@@ -172,6 +175,22 @@ pub fn render(
             inline_svg(svg),
             escape(&fig.caption)
         );
+    }
+    if !profiles.is_empty() {
+        h.push_str(
+            "<h3>Profile likelihood</h3>\n<p>Each panel follows one free parameter with the \
+             others re-optimised; the confidence interval is where the statistic stays below the \
+             dashed threshold, its ends are marked.</p>\n<div class=\"panels\">\n",
+        );
+        for (fig, svg) in profiles {
+            let _ = writeln!(
+                h,
+                "<figure>{}<figcaption>{}</figcaption></figure>",
+                inline_svg(svg),
+                escape(&fig.caption)
+            );
+        }
+        h.push_str("</div>\n");
     }
     if let Some(svg) = correlation_svg {
         let _ = writeln!(

@@ -354,6 +354,13 @@ where
     let fmt = |v: &f64| tick_label(*v);
     chart
         .configure_mesh()
+        // The library's 10 ticks at the default size; fewer on a small panel, where long
+        // tick labels would run into each other.
+        .x_labels(if fig.width >= 720 {
+            10
+        } else {
+            (fig.width as usize / 100).max(3)
+        })
         .x_desc(fig.x_label.as_str())
         .y_desc(fig.y_label.as_str())
         .x_label_formatter(&fmt)

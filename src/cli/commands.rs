@@ -354,7 +354,7 @@ pub fn arrhenius(args: &ArrheniusArgs) -> anyhow::Result<Outcome> {
         temperatures.as_deref(),
         args.level,
     )?;
-    let written = folder.map(|f| f.path().to_path_buf());
+    let written = folder.as_ref().map(|f| f.path().to_path_buf());
     if let Some(folder) = folder {
         folder.write_with("arrhenius.json", |w| {
             serde_json::to_writer_pretty(&mut *w, &report).map_err(std::io::Error::other)?;

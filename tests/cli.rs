@@ -505,6 +505,24 @@ fn report_json_validates_against_the_documented_schema() {
     let errors = schema_errors(&plain);
     assert!(errors.is_empty(), "{errors:#?}");
     assert!(plain["parameters"][0]["profile"].is_null());
+    // A model comparison (the profiles' model against itself: a tie).
+    let compared = dir.path().join("compared");
+    let variant = sample("depth-profiles");
+    let with_cmp = fit_into(
+        "depth-profiles",
+        &compared,
+        &["--compare", variant.to_str().unwrap()],
+    );
+    let errors = schema_errors(&with_cmp);
+    assert!(errors.is_empty(), "{errors:#?}");
+    assert_eq!(
+        with_cmp["comparison"]["models"].as_array().unwrap().len(),
+        2
+    );
+    assert!(with_cmp["comparison"]["verdict"]
+        .as_str()
+        .unwrap()
+        .contains("cannot tell"));
 
     // The validator can fail: an undocumented key, a wrong type and a missing key are found.
     let mut bad = report.clone();

@@ -773,3 +773,36 @@ fn no_progress_bar_when_stderr_is_not_a_terminal() {
     assert!(err.is_empty(), "{err}");
     assert!(String::from_utf8_lossy(&out.stdout).contains("report written to"));
 }
+
+#[test]
+fn report_html_shows_derived_quantities_and_shortcut_estimates() {
+    // The HTML report carries what report.json carries (issue list for the report; common
+    // practice: the colleague reading the page sees the same numbers as the script).
+    let dir = tempfile::tempdir().unwrap();
+    let out_dir = dir.path().join("film");
+    let report = fit_into("film-uptake", &out_dir, &[]);
+    let html = std::fs::read_to_string(out_dir.join("report.html")).unwrap();
+    let derived = report["derived"].as_array().unwrap();
+    assert!(
+        !derived.is_empty(),
+        "the film sample asks for derived quantities"
+    );
+    assert!(html.contains("<h2>Derived quantities</h2>"));
+    for d in derived {
+        let name = d["name"].as_str().unwrap();
+        assert!(html.contains(&format!("<td>{name}</td>")), "derived {name}");
+    }
+    let shortcuts = report["shortcut_estimates"].as_array().unwrap();
+    assert!(!shortcuts.is_empty());
+    assert!(html.contains("<h2>Shortcut estimates</h2>"));
+    assert_eq!(
+        html.matches("<td>half-time</td>").count(),
+        shortcuts
+            .iter()
+            .filter(|s| s["method"] == "half-time")
+            .count()
+    );
+    // No comparison was asked for, so no comparison section.
+    assert!(!html.contains("Model comparison"));
+    assert!(!html.contains("NaN") && !html.contains("inf<"));
+}

@@ -145,6 +145,10 @@ pub fn render(
     }
     let _ = writeln!(h, "</table>\n<p>{}</p>", escape(&f.stop_reason));
 
+    derived_section(&mut h, report);
+    shortcut_section(&mut h, report);
+    comparison_section(&mut h, report);
+
     h.push_str("<h2>Residual checks</h2>\n<table><tr><th>dataset</th><th>points</th><th>runs (expected)</th><th>Durbin–Watson</th><th>verdict</th></tr>\n");
     for d in &report.datasets {
         let _ = writeln!(
@@ -219,4 +223,91 @@ pub fn render(
         report.schema_version
     );
     h
+}
+
+/// Derived quantities (delta-method standard uncertainties), when the experiment asked for any.
+fn derived_section(h: &mut String, report: &Report) {
+    if report.derived.is_empty() {
+        return;
+    }
+    h.push_str("<h2>Derived quantities</h2>\n<table><tr><th>quantity</th><th>value</th><th>std. uncertainty</th><th>unit</th><th>what it is</th></tr>\n");
+    for d in &report.derived {
+        let value = match (&d.unavailable, d.value) {
+            (Some(why), _) => format!("not available: {why}"),
+            (None, v) => num_with_error(v, d.std_uncertainty),
+        };
+        let _ = writeln!(
+            h,
+            "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td></tr>",
+            escape(&d.name),
+            escape(&value),
+            escape(&num(d.std_uncertainty)),
+            escape(&d.unit),
+            escape(&d.description)
+        );
+    }
+    h.push_str(
+        "</table>\n<p>Uncertainties propagated from the fitted parameters' covariance and the \
+         stated uncertainties of given inputs (first-order delta method).</p>\n",
+    );
+}
+
+/// The textbook shortcut estimates beside the full fit, with the assumptions they rest on.
+fn shortcut_section(h: &mut String, report: &Report) {
+    if report.shortcut_estimates.is_empty() {
+        return;
+    }
+    h.push_str("<h2>Shortcut estimates</h2>\n<p>Classic closed-form estimates from the same data. \
+        They assume ideal conditions; where they differ from the full fit, the notes say which \
+        assumption the data break.</p>\n<table><tr><th>dataset</th><th>method</th><th>estimate</th><th>unit</th><th>full fit</th><th>ratio</th><th>notes</th></tr>\n");
+    for r in &report.shortcut_estimates {
+        let estimate = match &r.unavailable {
+            Some(why) => format!("not available: {why}"),
+            None => num(r.estimate),
+        };
+        let mut notes: Vec<String> = Vec::new();
+        if let Some(d) = &r.detail {
+            notes.push(d.clone());
+        }
+        notes.extend(r.caveats.iter().cloned());
+        let notes = notes
+            .iter()
+            .map(|n| escape(n))
+            .collect::<Vec<_>>()
+            .join("<br>");
+        let _ = writeln!(
+            h,
+            "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td></tr>",
+            escape(&r.dataset),
+            escape(&r.method),
+            escape(&estimate),
+            escape(&r.unit),
+            escape(&num(r.fitted)),
+            escape(&num(r.ratio_to_fit)),
+            notes
+        );
+    }
+    h.push_str("</table>\n");
+}
+
+/// The model comparison by AICc, when other experiment files were fitted beside this one.
+fn comparison_section(h: &mut String, report: &Report) {
+    let Some(c) = &report.comparison else {
+        return;
+    };
+    h.push_str("<h2>Model comparison</h2>\n<table><tr><th>model</th><th>free parameters</th><th>AICc</th><th>ΔAICc</th><th>Akaike weight</th><th>evidence ratio</th><th>converged</th></tr>\n");
+    for m in &c.models {
+        let _ = writeln!(
+            h,
+            "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td></tr>",
+            escape(&m.name),
+            m.n_free,
+            escape(&num(m.aicc)),
+            escape(&num(m.delta_aicc)),
+            escape(&num(m.akaike_weight)),
+            escape(&num(m.evidence_ratio)),
+            if m.converged { "yes" } else { "no" }
+        );
+    }
+    let _ = writeln!(h, "</table>\n<p>{}</p>", escape(&c.verdict));
 }

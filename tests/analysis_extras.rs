@@ -457,3 +457,63 @@ unit = "mg"
         .to_string();
     assert!(err.contains("parameters.D.fixed"), "{err}");
 }
+
+#[test]
+fn heat_flux_is_rho_cp_times_the_temperature_flux() {
+    // Fourier's law: q = −k ∂T/∂x = ρ c_p (−α ∂T/∂x), so the heat flux in W/m² is ρ c_p times
+    // the temperature flux the model computes (common practice). For a product of independent
+    // inputs the relative uncertainties add in quadrature (JCGM 100:2008, GUM, eq. 12).
+    let dir = tempfile::tempdir().unwrap();
+    let sample = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("sample-data/heated-rod");
+    for f in ["heater.csv", "sensors.csv"] {
+        std::fs::copy(sample.join(f), dir.path().join(f)).unwrap();
+    }
+    let text = std::fs::read_to_string(sample.join("experiment.toml")).unwrap();
+    let heat_lines = "density = \"2700 kg/m3\"\ndensity_uncertainty = \"15 kg/m3\"\nheat_capacity = \"0.90 J/(g K)\"\nheat_capacity_uncertainty = \"0.02 J/(g K)\"";
+    let flux_block = text
+        .find("[derived.heater_flux]")
+        .expect("sample has a heater flux");
+    assert!(
+        text[flux_block..].contains(heat_lines),
+        "sample gives ρ and c_p"
+    );
+    let plain_text = format!(
+        "{}{}",
+        &text[..flux_block],
+        text[flux_block..].replacen(heat_lines, "", 1)
+    );
+    let opts = AnalysisOptions::default();
+    let heat = analyse(load(dir.path(), "heat.toml", &text), &opts).unwrap();
+    let plain = analyse(load(dir.path(), "plain.toml", &plain_text), &opts).unwrap();
+    let (rho, u_rho, cp, u_cp) = (2700.0, 15.0, 900.0, 20.0);
+    let mut checked = 0;
+    for q in heat
+        .derived
+        .iter()
+        .filter(|d| d.name.starts_with("heater_flux["))
+    {
+        let j = plain.derived.iter().find(|d| d.name == q.name).unwrap();
+        assert_eq!(q.unit, "W/m2");
+        assert_eq!(j.unit, "degC·m/s");
+        let (qv, uq) = q.value.clone().unwrap();
+        let (jv, uj) = j.value.clone().unwrap();
+        assert!((qv / (rho * cp * jv) - 1.0).abs() < 1e-9, "{qv} vs {jv}");
+        let rel = ((uj / jv).powi(2) + (u_rho / rho).powi(2) + (u_cp / cp).powi(2)).sqrt();
+        assert!((uq / (qv * rel) - 1.0).abs() < 1e-3, "{uq} vs {}", qv * rel);
+        checked += 1;
+    }
+    assert_eq!(checked, 2);
+
+    // ρ and c_p on a sample whose values are not temperatures: an error naming the key.
+    let sheet = ideal_sheet();
+    let extra = "[derived.q]\nquantity = \"flux_in\"\nend = \"left\"\ntimes = [\"500 s\"]\ndensity = \"1 g/cm3\"\nheat_capacity = \"1 J/(g K)\"\n";
+    let params = "[parameters.D]\nstart = \"3e-12 m2/s\"\n[parameters.M_inf]\nstart = \"1 mg\"\n";
+    let bad = experiment_text("value", params, "", "0.004 mg")
+        .replace("[[datasets]]", &format!("{extra}\n[[datasets]]"));
+    std::fs::write(sheet.path().join("bad.toml"), bad).unwrap();
+    let err = experiment::load(sheet.path().join("bad.toml"))
+        .unwrap_err()
+        .to_string();
+    assert!(err.contains("derived.q.density"), "{err}");
+    assert!(err.contains("not temperatures"), "{err}");
+}

@@ -94,9 +94,10 @@ pub fn derive_all(analysis: &Analysis) -> Vec<Derived> {
                 dataset,
                 end,
                 times,
+                heat,
             } => {
                 let d = &e.datasets[*dataset];
-                let results = flux_in(analysis, *dataset, *end, times);
+                let results = flux_in(analysis, *dataset, *end, times, heat.as_ref());
                 for (t, r) in times.iter().zip(results) {
                     let (scale, tu) = label_unit(*t);
                     out.push(Derived {
@@ -110,9 +111,14 @@ pub fn derive_all(analysis: &Analysis) -> Vec<Derived> {
                             d.name,
                             trim(t / scale)
                         ),
-                        unit: format!("{}·m/s", e.value_unit),
+                        unit: match heat {
+                            Some(_) => "W/m2".to_string(),
+                            None => format!("{}·m/s", e.value_unit),
+                        },
                         value: r.map(|(v, u)| {
-                            let s = flux_scale(e);
+                            // A heat flux is already SI (W/m²); a temperature rate is shown
+                            // in the sample's value unit.
+                            let s = if heat.is_some() { 1.0 } else { flux_scale(e) };
                             (v / s, u / s)
                         }),
                     });
@@ -282,7 +288,25 @@ fn flux_in(
     dataset: usize,
     end: End,
     times: &[f64],
+    heat: Option<&((f64, f64), (f64, f64))>,
 ) -> Vec<std::result::Result<(f64, f64), String>> {
+    // ρ c_p J with the uncertainties of ρ and c_p propagated (JCGM 100:2008 §5); without
+    // them, J alone.
+    let extras: Vec<ExtraInput> = match heat {
+        Some((rho, cp)) => vec![
+            ExtraInput {
+                name: "rho".into(),
+                value: rho.0,
+                std_uncertainty: rho.1,
+            },
+            ExtraInput {
+                name: "c_p".into(),
+                value: cp.0,
+                std_uncertainty: cp.1,
+            },
+        ],
+        None => Vec::new(),
+    };
     let mut sorted = times.to_vec();
     sorted.sort_by(f64::total_cmp);
     sorted.dedup();
@@ -301,10 +325,17 @@ fn flux_in(
                 .iter()
                 .position(|s| s == t)
                 .ok_or_else(|| "time not found".to_string())?;
-            let g = |theta: &[f64], _: &[f64]| replayed.series(theta, 0)[k];
+            let g = |theta: &[f64], z: &[f64]| {
+                let j = replayed.series(theta, 0)[k];
+                if z.is_empty() {
+                    j
+                } else {
+                    j * z[0] * z[1]
+                }
+            };
             analysis
                 .fit
-                .derived(g, &[])
+                .derived(g, &extras)
                 .map(|d| (d.value, d.std_uncertainty))
                 .map_err(|err| err.to_string())
                 .and_then(|v| {

@@ -486,10 +486,18 @@ pub enum DerivedWhat {
         end: End,
         /// Times, s.
         times: Vec<f64>,
+        /// ρ (kg/m³) and c_p (J/(kg K)), each with its standard uncertainty, to report a
+        /// temperature flux as a heat flux ρ c_p J in W/m².
+        heat: Option<((f64, f64), (f64, f64))>,
     },
 }
 
 impl Experiment {
+    /// True when the sample's values are temperatures (a heat-conduction problem).
+    pub fn value_unit_is_temperature(&self) -> bool {
+        quantity::value_unit(&self.value_unit).quantity() == crate::units::Quantity::Temperature
+    }
+
     /// Start values of every parameter, SI (NaN for a pending automatic start).
     pub fn start_values(&self) -> Vec<f64> {
         self.parameters.iter().map(|p| p.start).collect()
@@ -1498,6 +1506,59 @@ fn temperature_of(b: &Builder, s: &Scalar) -> Result<f64> {
 }
 
 /// A number with one of the units of a derived quantity's input, in SI.
+/// ρ (kg/m³) and c_p (J/(kg K)) of a `[derived.NAME]` table, each with its standard
+/// uncertainty (zero when not given).
+fn heat_inputs(b: &Builder, spec: &DerivedSpec, key: &str) -> Result<((f64, f64), (f64, f64))> {
+    let k = |s: &str| format!("{key}.{s}");
+    let num = |s: &Option<Scalar>, units, what, field: &str| -> Result<f64> {
+        match s {
+            Some(s) => derived_number(b, s, units, what, &k(field)),
+            None => Ok(0.0),
+        }
+    };
+    let rho = num(&spec.density, DENSITY_UNITS, "density", "density")?;
+    let u_rho = num(
+        &spec.density_uncertainty,
+        DENSITY_UNITS,
+        "density",
+        "density_uncertainty",
+    )?;
+    let cp = num(
+        &spec.heat_capacity,
+        HEAT_CAPACITY_UNITS,
+        "heat capacity",
+        "heat_capacity",
+    )?;
+    let u_cp = num(
+        &spec.heat_capacity_uncertainty,
+        HEAT_CAPACITY_UNITS,
+        "heat capacity",
+        "heat_capacity_uncertainty",
+    )?;
+    for (v, field) in [(rho, "density"), (cp, "heat_capacity")] {
+        if v <= 0.0 {
+            return Err(b.err(
+                InputKind::BadValue,
+                &k(field),
+                format!("{key}.{field} must be > 0"),
+            ));
+        }
+    }
+    for (v, field) in [
+        (u_rho, "density_uncertainty"),
+        (u_cp, "heat_capacity_uncertainty"),
+    ] {
+        if v < 0.0 {
+            return Err(b.err(
+                InputKind::BadValue,
+                &k(field),
+                format!("{key}.{field} must be ≥ 0"),
+            ));
+        }
+    }
+    Ok(((rho, u_rho), (cp, u_cp)))
+}
+
 fn derived_number(
     b: &Builder,
     s: &Scalar,
@@ -1636,56 +1697,11 @@ fn derived_requests(
                 }
                 needs("density", spec.density.is_some())?;
                 needs("heat_capacity", spec.heat_capacity.is_some())?;
-                let num = |s: &Option<Scalar>, units, what, field: &str| -> Result<f64> {
-                    match s {
-                        Some(s) => derived_number(b, s, units, what, &k(field)),
-                        None => Ok(0.0),
-                    }
-                };
-                let rho = num(&spec.density, DENSITY_UNITS, "density", "density")?;
-                let u_rho = num(
-                    &spec.density_uncertainty,
-                    DENSITY_UNITS,
-                    "density",
-                    "density_uncertainty",
-                )?;
-                let cp = num(
-                    &spec.heat_capacity,
-                    HEAT_CAPACITY_UNITS,
-                    "heat capacity",
-                    "heat_capacity",
-                )?;
-                let u_cp = num(
-                    &spec.heat_capacity_uncertainty,
-                    HEAT_CAPACITY_UNITS,
-                    "heat capacity",
-                    "heat_capacity_uncertainty",
-                )?;
-                for (v, field) in [(rho, "density"), (cp, "heat_capacity")] {
-                    if v <= 0.0 {
-                        return Err(b.err(
-                            InputKind::BadValue,
-                            &k(field),
-                            format!("{key}.{field} must be > 0"),
-                        ));
-                    }
-                }
-                for (v, field) in [
-                    (u_rho, "density_uncertainty"),
-                    (u_cp, "heat_capacity_uncertainty"),
-                ] {
-                    if v < 0.0 {
-                        return Err(b.err(
-                            InputKind::BadValue,
-                            &k(field),
-                            format!("{key}.{field} must be ≥ 0"),
-                        ));
-                    }
-                }
+                let (density, heat_capacity) = heat_inputs(b, spec, &key)?;
                 DerivedWhat::Conductivity {
                     diffusivity,
-                    density: (rho, u_rho),
-                    heat_capacity: (cp, u_cp),
+                    density,
+                    heat_capacity,
                 }
             }
             DerivedName::EquilibriumTime => {
@@ -1720,6 +1736,23 @@ fn derived_requests(
                 if times.is_empty() {
                     return Err(b.err(InputKind::BadValue, &k("times"), "give at least one time"));
                 }
+                // With ρ and c_p, a temperature flux (K·m/s) becomes a heat flux in W/m².
+                let heat = match (&spec.density, &spec.heat_capacity) {
+                    (None, None) => None,
+                    (Some(_), Some(_)) => {
+                        if !exp.value_unit_is_temperature() {
+                            return Err(b.err(
+                                InputKind::BadValue,
+                                &k("density"),
+                                "density and heat_capacity turn a temperature flux into W/m²; \
+                                 this sample's values are not temperatures, so leave them out",
+                            ));
+                        }
+                        Some(heat_inputs(b, spec, &key)?)
+                    }
+                    (Some(_), None) => return Err(needs("heat_capacity", false).unwrap_err()),
+                    (None, Some(_)) => return Err(needs("density", false).unwrap_err()),
+                };
                 DerivedWhat::FluxIn {
                     dataset: dataset(b)?,
                     end: match spec.end {
@@ -1727,6 +1760,7 @@ fn derived_requests(
                         _ => End::Right,
                     },
                     times,
+                    heat,
                 }
             }
         };

@@ -288,7 +288,7 @@ fn flux_in(
     dataset: usize,
     end: End,
     times: &[f64],
-    heat: Option<&((f64, f64), (f64, f64))>,
+    heat: Option<&crate::experiment::build::HeatInputs>,
 ) -> Vec<std::result::Result<(f64, f64), String>> {
     // ρ c_p J with the uncertainties of ρ and c_p propagated (JCGM 100:2008 §5); without
     // them, J alone.

@@ -459,6 +459,9 @@ pub struct DerivedRequest {
     pub what: DerivedWhat,
 }
 
+/// ρ (kg/m³) and c_p (J/(kg K)), each as (value, standard uncertainty).
+pub type HeatInputs = ((f64, f64), (f64, f64));
+
 /// The derived quantities.
 #[derive(Debug, Clone, PartialEq)]
 pub enum DerivedWhat {
@@ -488,7 +491,7 @@ pub enum DerivedWhat {
         times: Vec<f64>,
         /// ρ (kg/m³) and c_p (J/(kg K)), each with its standard uncertainty, to report a
         /// temperature flux as a heat flux ρ c_p J in W/m².
-        heat: Option<((f64, f64), (f64, f64))>,
+        heat: Option<HeatInputs>,
     },
 }
 
@@ -1508,7 +1511,7 @@ fn temperature_of(b: &Builder, s: &Scalar) -> Result<f64> {
 /// A number with one of the units of a derived quantity's input, in SI.
 /// ρ (kg/m³) and c_p (J/(kg K)) of a `[derived.NAME]` table, each with its standard
 /// uncertainty (zero when not given).
-fn heat_inputs(b: &Builder, spec: &DerivedSpec, key: &str) -> Result<((f64, f64), (f64, f64))> {
+fn heat_inputs(b: &Builder, spec: &DerivedSpec, key: &str) -> Result<HeatInputs> {
     let k = |s: &str| format!("{key}.{s}");
     let num = |s: &Option<Scalar>, units, what, field: &str| -> Result<f64> {
         match s {

@@ -731,3 +731,16 @@ fn repeated_profile_row_is_a_duplicate() {
     let msg = check(&e, InputKind::DuplicateRow, Some(4), Some("x [mm]"));
     assert!(msg.contains("line 4 repeats line 3"), "{msg}");
 }
+
+#[test]
+fn a_number_that_overflows_in_si_units_is_located() {
+    // 1e307 d is finite as written but 8.64e311 s is not (IEEE 754 double range ≈ 1.8e308,
+    // common practice): the cell is named, not loaded as infinity.
+    let e = series_err(
+        "err_overflow_after_unit.csv",
+        &mass_series(),
+        &ReadOptions::default(),
+    );
+    let msg = check(&e, InputKind::NotFinite, Some(3), Some("time [d]"));
+    assert!(msg.contains("overflows"), "{msg}");
+}

@@ -514,6 +514,21 @@ fn inline_errors_name_their_keys() {
             InputKind::UnknownUnit,
             "datasets[1].ends.left.transfer.outside",
         ),
+        // Finite as written, infinite in SI: 1e307 d ≈ 8.6e311 s exceeds the double range
+        // (IEEE 754, common practice).
+        (
+            "time_origin = \"5 min\"",
+            "time_origin = \"1e307 d\"",
+            InputKind::NotFinite,
+            "datasets[1].time_origin",
+        ),
+        // TOML allows bare nan and inf; a table row must still be finite numbers.
+        (
+            "outside = \"4.2 mg/cm3\"\n\n[ends.right",
+            "outside = { rows = [[0, 4.2], [600, nan]], time_unit = \"s\" }\n\n[ends.right",
+            InputKind::NotFinite,
+            "ends.left.transfer.outside.rows",
+        ),
     ];
     for (from, to, kind, key) in cases {
         assert!(good.contains(from), "{from}");

@@ -329,6 +329,17 @@ where
                     } else {
                         unit.to_si(x)
                     };
+                    if !si.is_finite() {
+                        return Err(Error::input(
+                            InputKind::NotFinite,
+                            header.cell(line, *col),
+                            format!(
+                                "'{}' overflows when converted to SI units; check the \
+                                 number and the column's unit",
+                                String::from_utf8_lossy(trim_ascii(raw))
+                            ),
+                        ));
+                    }
                     apply_check(*check, si, raw, unit, &header, line, *col)?;
                     if let Some(v) = out.numbers.get_mut(ni) {
                         v.push(si);

@@ -600,6 +600,15 @@ impl<'a> Builder<'a> {
             )
         })?;
         let v = conv.to_si(number);
+        if !v.is_finite() {
+            return Err(self.err(
+                InputKind::NotFinite,
+                key,
+                format!(
+                    "'{key}' overflows when converted to SI units; check the number and its unit"
+                ),
+            ));
+        }
         self.check(v, check, kind, key, s)?;
         Ok((v, conv))
     }
@@ -1321,6 +1330,19 @@ fn example(kind: Kind) -> &'static str {
 fn check_rows(b: &Builder<'_>, rows: &[(f64, f64)], key: &str, what: &str) -> Result<()> {
     if rows.is_empty() {
         return Err(b.err(InputKind::BadValue, key, format!("'{key}' has no rows")));
+    }
+    if let Some(i) = rows
+        .iter()
+        .position(|(x, y)| !(x.is_finite() && y.is_finite()))
+    {
+        return Err(b.err(
+            InputKind::NotFinite,
+            key,
+            format!(
+                "'{key}': row {} is not a pair of finite numbers (nan and inf are not values)",
+                i + 1
+            ),
+        ));
     }
     for (i, w) in rows.windows(2).enumerate() {
         if w[1].0 <= w[0].0 {

@@ -553,7 +553,10 @@ impl Solver {
                 return Err(Error::Solver {
                     time: t,
                     message: format!(
-                        "more than {} steps; loosen solver.tolerance or check the settings",
+                        "more than {} time steps; every distinct output time ends a step, so \
+                         data with very many times need solver.maximum_steps raised above \
+                         their number; otherwise loosen solver.tolerance or check the model \
+                         settings",
                         self.options.maximum_steps
                     ),
                 });

@@ -10,6 +10,7 @@
 pub mod analysis;
 pub mod analytic;
 pub mod arrhenius;
+pub mod batch;
 pub mod data;
 pub mod error;
 pub mod experiment;

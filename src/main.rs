@@ -27,6 +27,7 @@ fn main() {
         Command::Check(a) => cli::commands::check(a),
         Command::Simulate(a) => cli::commands::simulate(a),
         Command::Arrhenius(a) => cli::commands::arrhenius(a),
+        Command::Batch(a) => cli::commands::batch(a),
         Command::Generate(a) => {
             cli::generate(a, &mut std::io::stdout().lock()).map(|_| Outcome::Success)
         }

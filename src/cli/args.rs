@@ -48,6 +48,22 @@ pub enum Command {
         after_help = "Example:\n  fickfit arrhenius anneal-1100K/report.json anneal-1150K/report.json anneal-1200K/report.json --out arrhenius\n  fickfit arrhenius a/report.json b/report.json --temperature \"827 degC,877 degC\" --parameter D"
     )]
     Arrhenius(ArrheniusArgs),
+    /// Fit every experiment file under folders (or a list of files) in parallel, write a
+    /// report folder for each and a summary across samples (summary.csv, summary.html).
+    #[command(
+        long_about = "Fit every experiment file under folders (or a list of files) in parallel, \
+write a report folder for each sample and a summary across samples: summary.csv and summary.html, \
+one row per sample with the parameters and their intervals, the fit quality, the warnings, and \
+the error of a sample that failed. A folder is searched recursively for .toml files; TOML files \
+without the experiment file's tables are skipped with a note. A failed sample is reported and \
+the others go on.",
+        after_help = "Exit codes: 0 every sample fitted and converged; 1 some sample failed or \
+did not converge (the others are still fitted and in the summary); 2 bad usage, no experiment \
+file found, or the output folder refused.\n\nExample:\n  fickfit batch coupons/ --out coupons-fits\n  \
+fickfit batch sample-data --exclude truth.toml --out sample-fits --jobs 2\n  fickfit batch \
+a.toml b.toml c.toml --out abc --profile"
+    )]
+    Batch(BatchArgs),
     /// Write shell completions or the man page.
     #[command(
         after_help = "Example:\n  fickfit generate completions bash > fickfit.bash\n  fickfit generate man > fickfit.1"
@@ -150,6 +166,47 @@ pub struct ArrheniusArgs {
     /// Print the result as JSON on standard output instead of the summary.
     #[arg(long)]
     pub json: bool,
+}
+
+/// Options of `fickfit batch`.
+#[derive(Debug, Args)]
+pub struct BatchArgs {
+    /// Folders to search for experiment files (recursively), or experiment files.
+    #[arg(value_name = "PATH", required = true, num_args = 1..)]
+    pub inputs: Vec<PathBuf>,
+    /// Folder for the summary and one report folder per sample (created; must not exist or be
+    /// empty unless --force).
+    #[arg(long, short, value_name = "DIR")]
+    pub out: PathBuf,
+    /// Replace the files of an existing, non-empty output folder and of its report folders.
+    #[arg(long)]
+    pub force: bool,
+    /// Samples fitted at once (default: the number of cores, or RAYON_NUM_THREADS).
+    #[arg(long, short, value_name = "N", value_parser = clap::value_parser!(u16).range(1..))]
+    pub jobs: Option<u16>,
+    /// Skip files found in folders whose name (or path below the folder) matches this pattern
+    /// (`*` any characters, `?` one); repeat for more. Files named directly are always fitted.
+    #[arg(long, value_name = "PATTERN")]
+    pub exclude: Vec<String>,
+    /// Confidence level of every interval, between 0 and 1 (default: each experiment file's,
+    /// else 0.95).
+    #[arg(long, value_name = "LEVEL")]
+    pub level: Option<f64>,
+    /// Also compute profile-likelihood intervals for every sample.
+    #[arg(long)]
+    pub profile: bool,
+    /// Residual-bootstrap replicates per sample (0: none).
+    #[arg(long, value_name = "N", default_value_t = 0)]
+    pub bootstrap: usize,
+    /// Seed for the bootstrap.
+    #[arg(long, value_name = "N", default_value_t = 1)]
+    pub seed: u64,
+    /// With absolute uncertainties, multiply the covariance by the reduced χ².
+    #[arg(long)]
+    pub rescale: bool,
+    /// Print nothing but errors (and no progress bar).
+    #[arg(long, short)]
+    pub quiet: bool,
 }
 
 /// What `fickfit generate` writes.

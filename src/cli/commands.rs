@@ -1,12 +1,13 @@
 //! The commands: each loads what it needs through the library and prints the result.
 
-use super::args::{ArrheniusArgs, CheckArgs, FitArgs, SimulateArgs};
+use super::args::{ArrheniusArgs, BatchArgs, CheckArgs, FitArgs, SimulateArgs};
 use super::Outcome;
 use anyhow::{bail, Context};
 use fickfit::analysis::{analyse, AnalysisOptions};
 use fickfit::report::data::Report;
 use fickfit::report::folder::ReportFolder;
-use fickfit::report::{fitted, terminal};
+use fickfit::report::terminal;
+use rayon::prelude::*;
 use std::io::Write;
 use std::path::{Path, PathBuf};
 use std::sync::Arc;
@@ -54,79 +55,48 @@ pub fn fit(args: &FitArgs) -> anyhow::Result<Outcome> {
         .iter()
         .map(|p| load(p).map(|(e, _)| e))
         .collect::<anyhow::Result<Vec<_>>>()?;
+    let plain = AnalysisOptions {
+        profile: false,
+        bootstrap: 0,
+        ..options.clone()
+    };
+    // The variants (plain fits) run beside the main fit, on rayon's pool.
+    let fit_all = || {
+        rayon::join(
+            || analyse(Arc::new(experiment), &options),
+            || {
+                variants
+                    .into_par_iter()
+                    .zip(args.compare.par_iter())
+                    .map(|(e, path)| {
+                        analyse(Arc::new(e), &plain)
+                            .with_context(|| format!("fitting the variant {}", path.display()))
+                    })
+                    .collect::<anyhow::Result<Vec<_>>>()
+            },
+        )
+    };
     // A progress bar on stderr for the long extras (profile sides, bootstrap refits); hidden
     // when stderr is not a terminal, none with --quiet or --json.
-    let analysis = if (args.profile || args.bootstrap > 0) && !args.quiet && !args.json {
+    let (analysis, others) = if (args.profile || args.bootstrap > 0) && !args.quiet && !args.json {
         let bar = Arc::new(super::progress::Bar::new("fitting"));
-        let analysis = fickfit::fit::progress::observe(bar.clone(), || {
-            analyse(Arc::new(experiment), &options)
-        });
+        let both = fickfit::fit::progress::observe(bar.clone(), fit_all);
         bar.clear();
-        analysis
+        both
     } else {
-        analyse(Arc::new(experiment), &options)
+        fit_all()
     };
     let analysis = analysis?;
+    let others = others?;
     let mut report = Report::new(&analysis, &bytes);
-    if !variants.is_empty() {
-        let plain = AnalysisOptions {
-            profile: false,
-            bootstrap: 0,
-            ..options.clone()
-        };
-        let others = variants
-            .into_iter()
-            .zip(&args.compare)
-            .map(|(e, path)| {
-                analyse(Arc::new(e), &plain)
-                    .with_context(|| format!("fitting the variant {}", path.display()))
-            })
-            .collect::<anyhow::Result<Vec<_>>>()?;
+    if !others.is_empty() {
         let mut all = vec![&analysis];
         all.extend(others.iter());
         let cmp = fickfit::analysis::compare::compare(&all)?;
         report.comparison = Some(fickfit::report::data::ComparisonReport::new(&cmp, &all));
     }
-    folder.write_with("report.json", |w| {
-        serde_json::to_writer_pretty(&mut *w, &report).map_err(std::io::Error::other)?;
-        writeln!(w)
-    })?;
-    folder.write_with("fitted.csv", |w| fitted::write_fitted(&analysis, w))?;
-    // Figures: SVG and PNG files, and the same SVGs inline in report.html.
-    let draw = |figures: Vec<fickfit::report::figures::NamedFigure>| {
-        let mut rendered = Vec::new();
-        for fig in figures {
-            let svg = fickfit::report::plot::to_svg(&fig.figure)?.svg;
-            folder.write_with(&format!("{}.svg", fig.stem), |w| {
-                w.write_all(svg.as_bytes())
-            })?;
-            fickfit::report::plot::to_png(
-                &fig.figure,
-                folder.staged(&format!("{}.png", fig.stem)),
-            )?;
-            rendered.push((fig, svg));
-        }
-        anyhow::Ok(rendered)
-    };
-    let rendered = draw(fickfit::report::figures::figures(&analysis)?)?;
-    let profiles = draw(fickfit::report::figures::profile_figures(&report))?;
-    let correlation = fickfit::report::figures::correlation(&analysis)?;
-    if let Some(svg) = &correlation {
-        folder.write_with("correlation.svg", |w| w.write_all(svg.as_bytes()))?;
-        fickfit::report::figures::correlation_png_file(
-            &analysis,
-            &folder.staged("correlation.png"),
-        )?;
-    }
     let command = std::env::args().collect::<Vec<_>>().join(" ");
-    let page = fickfit::report::html::render(
-        &report,
-        &rendered,
-        &profiles,
-        correlation.as_deref(),
-        &command,
-    );
-    folder.write_with("report.html", |w| w.write_all(page.as_bytes()))?;
+    fickfit::batch::write_report(&folder, &analysis, &report, &command)?;
     // Everything is written: only now does the report appear in the folder.
     let folder_path = folder.path().to_path_buf();
     folder.commit()?;
@@ -427,4 +397,94 @@ pub fn arrhenius(args: &ArrheniusArgs) -> anyhow::Result<Outcome> {
         writeln!(out, "written to {}", dir.display())?;
     }
     Ok(Outcome::Success)
+}
+
+/// `fickfit batch`.
+pub fn batch(args: &BatchArgs) -> anyhow::Result<Outcome> {
+    use fickfit::batch::{BatchOptions, Status};
+    use std::io::IsTerminal;
+    if let Some(l) = args.level {
+        if !(l > 0.0 && l < 1.0) {
+            bail!("--level must be between 0 and 1 (for example 0.95), found {l}");
+        }
+    }
+    let discovery = fickfit::batch::discover(&args.inputs, &args.exclude)?;
+    if !args.quiet {
+        for s in &discovery.skipped {
+            eprintln!("fickfit: skipped {}: {}", s.path.display(), s.reason);
+        }
+    }
+    let options = BatchOptions {
+        analysis: AnalysisOptions {
+            level: args.level,
+            profile: args.profile,
+            bootstrap: args.bootstrap,
+            seed: args.seed,
+            rescale_absolute: args.rescale,
+        },
+        jobs: args
+            .jobs
+            .map_or_else(rayon::current_num_threads, usize::from),
+        force: args.force,
+    };
+    let total = discovery.samples.len() as u64;
+    let bar = if args.quiet || !std::io::stderr().is_terminal() {
+        indicatif::ProgressBar::hidden()
+    } else {
+        let bar = indicatif::ProgressBar::new(total);
+        if let Ok(style) = indicatif::ProgressStyle::with_template(
+            "{msg:<10} [{bar:30}] {pos}/{len} ({elapsed}, about {eta} left)",
+        ) {
+            bar.set_style(style.progress_chars("=> "));
+        }
+        bar.set_message("samples");
+        bar
+    };
+    let on_done = |r: &fickfit::batch::SampleResult| {
+        match r.status {
+            Status::Failed => bar.suspend(|| {
+                eprintln!(
+                    "fickfit: sample {} failed: {}",
+                    r.sample.name,
+                    r.error.as_deref().unwrap_or("unknown error")
+                )
+            }),
+            Status::NotConverged => bar.suspend(|| {
+                eprintln!(
+                    "fickfit: sample {}: the fit did not converge",
+                    r.sample.name
+                )
+            }),
+            Status::Ok => {}
+        }
+        bar.inc(1);
+    };
+    let summary = fickfit::batch::run(&discovery, &args.out, &options, &on_done);
+    bar.finish_and_clear();
+    let summary = summary?;
+    if !args.quiet {
+        let mut out = std::io::stdout().lock();
+        writeln!(
+            out,
+            "{} samples in {:.1} s on {} job(s): {} ok, {} did not converge, {} failed",
+            summary.results.len(),
+            summary.seconds,
+            options.jobs,
+            summary.count(Status::Ok),
+            summary.count(Status::NotConverged),
+            summary.count(Status::Failed)
+        )?;
+        writeln!(
+            out,
+            "summary written to {}",
+            args.out.join("summary.html").display()
+        )?;
+    }
+    Ok(
+        if summary.count(Status::Failed) + summary.count(Status::NotConverged) == 0 {
+            Outcome::Success
+        } else {
+            Outcome::FitProblem
+        },
+    )
 }

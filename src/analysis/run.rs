@@ -16,6 +16,12 @@ use crate::fit::bootstrap::BootstrapOptions;
 use crate::fit::engine::{fit, FitOptions, FitResult, Weighting};
 use crate::fit::params::ParamSpec;
 use crate::fit::profile::ProfileOptions;
+use crate::solver::{Observable, Request, Solver};
+use crate::stats::identifiability::{
+    chi_square_too_large, ends_early, starts_late, systematic_residuals, FitWarning,
+    ENDS_EARLY_FRACTION, STARTS_LATE_FRACTION,
+};
+use crate::stats::residual_tests::ResidualVerdict;
 use std::sync::Arc;
 
 /// Choices of the user that are not in the experiment file.
@@ -174,6 +180,7 @@ pub fn analyse(experiment: Arc<Experiment>, options: &AnalysisOptions) -> Result
     }
     problem.set_scales(&scales)?;
     let predictions = problem.predictions(&result.estimates)?;
+    result.warnings.extend(data_warnings(&experiment, &result));
     let mut analysis = Analysis {
         experiment,
         fit: result,
@@ -186,6 +193,90 @@ pub fn analyse(experiment: Arc<Experiment>, options: &AnalysisOptions) -> Result
     };
     analysis.derived = super::derived::derive_all(&analysis);
     Ok(analysis)
+}
+
+/// Warnings about the data as seen by the fit, beyond the identifiability checks of the
+/// engine (see [`crate::stats::identifiability`]):
+///
+/// - an uptake-type run (every observable an amount, amount change, mean or fractional uptake)
+///   whose fitted fractional uptake is below one half at its last time, or above 0.95 at its
+///   first time (computed by a forward solve at the estimate; runs whose fractional uptake is
+///   not defined, such as time-varying ends, are skipped);
+/// - a run whose residuals are systematic at the 0.001 level: runs-test p < 0.001 or
+///   `|r₁| √n > 3.29` (the two-sided 0.001 point of the normal; the report's verdict uses the
+///   fit's 0.05 level, the warning only strong evidence);
+/// - with absolute σ, a χ² upper-tail p-value below 0.001.
+fn data_warnings(experiment: &Experiment, result: &FitResult) -> Vec<FitWarning> {
+    let mut out = Vec::new();
+    let uptake_like = |o: &Observable| {
+        matches!(
+            o,
+            Observable::Amount
+                | Observable::AmountChange
+                | Observable::Mean
+                | Observable::FractionalUptake
+        )
+    };
+    for d in &experiment.datasets {
+        if d.request.observables.is_empty() || !d.request.observables.iter().all(uptake_like) {
+            continue;
+        }
+        let (first, last) = d
+            .request
+            .times
+            .iter()
+            .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &t| {
+                (a.min(t), b.max(t))
+            });
+        if !(first.is_finite() && last.is_finite()) {
+            continue;
+        }
+        let times = if last > first {
+            vec![first, last]
+        } else {
+            vec![last]
+        };
+        let fractions = d.model_for(&result.estimates).and_then(|model| {
+            let mut solver = Solver::new(experiment.solver.clone())?;
+            let request = Request {
+                times,
+                observables: vec![Observable::FractionalUptake],
+            };
+            Ok(solver.solve(&model, &request)?.series(0).to_vec())
+        });
+        let Ok(f) = fractions else { continue };
+        let (Some(&f_first), Some(&f_last)) = (f.first(), f.last()) else {
+            continue;
+        };
+        if !(f_first.is_finite() && f_last.is_finite()) {
+            continue;
+        }
+        if f_last < ENDS_EARLY_FRACTION {
+            out.push(ends_early(&d.name, f_last.max(0.0)));
+        }
+        if f_first > STARTS_LATE_FRACTION {
+            out.push(starts_late(&d.name, f_first.min(1.0)));
+        }
+    }
+    for c in &result.residual_checks {
+        let by_runs = c.runs_p.is_finite() && c.runs_p < 1e-3;
+        let by_lag = c.n >= 10
+            && c.lag1_autocorrelation.is_finite()
+            && c.lag1_autocorrelation.abs() * (c.n as f64).sqrt() > 3.29;
+        if c.verdict == ResidualVerdict::Structured && (by_runs || by_lag) {
+            out.push(systematic_residuals(
+                &c.dataset,
+                c.runs_p,
+                c.lag1_autocorrelation,
+            ));
+        }
+    }
+    if let Some(chi) = &result.goodness.chi_square {
+        if chi.p_value.is_finite() && chi.p_value < 1e-3 && chi.reduced > 1.0 {
+            out.push(chi_square_too_large(chi.reduced, chi.p_value));
+        }
+    }
+    out
 }
 
 fn set_interval_options(opts: &mut FitOptions, options: &AnalysisOptions) {

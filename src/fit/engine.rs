@@ -452,7 +452,18 @@ pub fn fit<P: ResidualProblem>(
             kind: WarningKind::NotConverged {
                 reason: lm.stop.sentence().to_string(),
             },
-            message: format!("the search did not converge: {}", lm.stop.sentence()),
+            message: format!(
+                "the search did not converge ({}); the values reported are the best point \
+                 found, not an optimum, and their intervals are not meaningful: {}",
+                lm.stop.sentence(),
+                free_specs
+                    .iter()
+                    .zip(&free_estimates)
+                    .map(|(s, x)| format!("{} = {x:.6e}", s.name))
+                    .collect::<Vec<_>>()
+                    .join(", ")
+                    + " (SI units)"
+            ),
         });
     }
     let profiles = match &opts.profile {

@@ -6,6 +6,11 @@
 //! bound range (or of the bound's magnitude) of one of its bounds; a standard error larger than
 //! the estimate; parameters that are not identifiable at all (rank-deficient Jacobian).
 //!
+//! Checks on the data and the fit, made by the analysis (`crate::analysis::run`) with the
+//! constructors below: an uptake-type run that ends before the fitted process is half done, or
+//! starts after it is 95 % done; systematic residuals (the residual checks' verdict); with
+//! absolute σ, a χ² whose upper-tail p-value is below 0.001.
+//!
 //! References: D. A. Belsley, E. Kuh & R. E. Welsch, *Regression Diagnostics* (1980), ch. 3
 //! (condition numbers).
 
@@ -55,6 +60,118 @@ pub enum WarningKind {
         /// The stop reason sentence.
         reason: String,
     },
+    /// An uptake-type dataset ends while the fitted process is less than half done, so the
+    /// rate and the final amount are hardly separable.
+    EndsEarly {
+        /// Dataset.
+        dataset: String,
+        /// Fitted fractional uptake `(M_t − M_0)/(M_∞ − M_0)` at the last data time.
+        fraction: f64,
+    },
+    /// An uptake-type dataset starts when the fitted process is already more than 95 % done,
+    /// so the rate (D) is hardly determined.
+    StartsLate {
+        /// Dataset.
+        dataset: String,
+        /// Fitted fractional uptake at the first data time.
+        fraction: f64,
+    },
+    /// The residuals of a dataset are systematic (runs test or lag-1 autocorrelation).
+    SystematicResiduals {
+        /// Dataset.
+        dataset: String,
+        /// Two-sided p-value of the runs test.
+        runs_p: f64,
+        /// Lag-1 autocorrelation of the residuals.
+        lag1: f64,
+    },
+    /// With absolute σ, χ² is far above its degrees of freedom (p < 0.001).
+    ChiSquareTooLarge {
+        /// Reduced χ².
+        reduced: f64,
+        /// Upper-tail p-value.
+        p_value: f64,
+    },
+}
+
+/// Fractional uptake below which the data are said to end early (common practice: before
+/// half-time the uptake follows `M_t/M_∞ ≈ (4/L)√(Dt/π)` (Crank 1975, eq. 4.20) and only
+/// `M_∞ √D` is determined).
+pub const ENDS_EARLY_FRACTION: f64 = 0.5;
+
+/// Fractional uptake above which the data are said to start late (common practice).
+pub const STARTS_LATE_FRACTION: f64 = 0.95;
+
+/// Warning for a dataset whose last point has fitted fractional uptake `fraction`.
+pub fn ends_early(dataset: &str, fraction: f64) -> FitWarning {
+    FitWarning {
+        message: format!(
+            "dataset {dataset}: the data end when the process is only {:.1} % done (fitted \
+             fractional uptake at the last time): before half-way the uptake grows as \
+             M_inf·sqrt(D t), so the diffusivity and the final amount can hardly be told \
+             apart; measure longer, or fix the final amount",
+            100.0 * fraction
+        ),
+        kind: WarningKind::EndsEarly {
+            dataset: dataset.to_string(),
+            fraction,
+        },
+    }
+}
+
+/// Warning for a dataset whose first point has fitted fractional uptake `fraction`.
+pub fn starts_late(dataset: &str, fraction: f64) -> FitWarning {
+    FitWarning {
+        message: format!(
+            "dataset {dataset}: the data start when the process is already {:.1} % done \
+             (fitted fractional uptake at the first time): the approach to equilibrium is \
+             missed, so the diffusivity is hardly determined; measure from the step",
+            100.0 * fraction
+        ),
+        kind: WarningKind::StartsLate {
+            dataset: dataset.to_string(),
+            fraction,
+        },
+    }
+}
+
+/// Warning for a dataset whose residual checks found structure.
+pub fn systematic_residuals(dataset: &str, runs_p: f64, lag1: f64) -> FitWarning {
+    let p = if runs_p.is_finite() {
+        format!("{runs_p:.2e}")
+    } else {
+        "not defined".to_string()
+    };
+    let r = if lag1.is_finite() {
+        format!("{lag1:.2}")
+    } else {
+        "not defined".to_string()
+    };
+    FitWarning {
+        message: format!(
+            "dataset {dataset}: the residuals are systematic (runs test p = {p}, lag-1 \
+             autocorrelation {r}): the model does not describe these data, so the estimates \
+             may be biased and the intervals too narrow; consider other physics (surface \
+             resistance, concentration-dependent D, a second process)"
+        ),
+        kind: WarningKind::SystematicResiduals {
+            dataset: dataset.to_string(),
+            runs_p,
+            lag1,
+        },
+    }
+}
+
+/// Warning for a χ² far above its degrees of freedom with absolute σ.
+pub fn chi_square_too_large(reduced: f64, p_value: f64) -> FitWarning {
+    FitWarning {
+        message: format!(
+            "chi-square is {reduced:.3} times its degrees of freedom (p = {p_value:.2e}): \
+             either the model is wrong or the given sigma are too small, and intervals that \
+             trust sigma are too narrow"
+        ),
+        kind: WarningKind::ChiSquareTooLarge { reduced, p_value },
+    }
 }
 
 /// One warning: kind plus a plain sentence.
@@ -89,7 +206,7 @@ pub fn identifiability_warnings(
             kind: WarningKind::NotIdentifiable { parameters: names },
         });
     }
-    if cov.condition_number > 1e8 {
+    if cov.condition_number.is_finite() && cov.condition_number > 1e8 {
         w.push(FitWarning {
             kind: WarningKind::IllConditioned {
                 condition_number: cov.condition_number,
@@ -99,6 +216,16 @@ pub fn identifiability_warnings(
                  distinguish some parameter combinations, so estimates are sensitive to noise",
                 cov.condition_number
             ),
+        });
+    }
+    if !cov.condition_number.is_finite() && cov.non_identifiable.is_empty() {
+        w.push(FitWarning {
+            kind: WarningKind::IllConditioned {
+                condition_number: f64::MAX,
+            },
+            message: "the problem is singular (the Jacobian at the estimate has a zero \
+                      singular value): some parameter combination does not affect the fit"
+                .to_string(),
         });
     }
     let p = specs.len();
@@ -150,14 +277,16 @@ pub fn identifiability_warnings(
         }
         if let Some(se) = cov.std_errors.get(j).copied().flatten() {
             if se > x.abs() {
+                let relative = if x != 0.0 { se / x.abs() } else { f64::MAX };
                 w.push(FitWarning {
                     kind: WarningKind::LargeStdError {
                         parameter: s.name.clone(),
-                        relative: se / x.abs(),
+                        relative,
                     },
                     message: format!(
-                        "the standard error of {} is larger than the estimate itself: the data \
-                         hardly determine it",
+                        "the standard error of {} is larger than the estimate itself \
+                         ({se:.3e} against {x:.3e}, SI units): the data hardly determine it, \
+                         and it is consistent with zero",
                         s.name
                     ),
                 });

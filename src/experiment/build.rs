@@ -5,7 +5,7 @@
 //! Every physical number becomes either a constant in SI or the index of a parameter, so
 //! [`Dataset::model_for`] fills a template from a parameter vector without parsing anything.
 
-use std::collections::BTreeMap;
+use std::collections::{BTreeMap, HashMap};
 use std::path::{Path, PathBuf};
 
 use super::locate::SpanIndex;
@@ -2195,19 +2195,26 @@ fn dataset(
             };
             let loaded = data::read_profiles(&path, &cols, &opts)?;
             warnings = loaded.warnings;
+            // Distinct depths in first-seen order; the map from a depth's bits to its index
+            // keeps this linear in the number of rows (a search of `xs` per row was quadratic).
             let mut xs: Vec<f64> = Vec::new();
+            let mut index_of: HashMap<u64, usize> = HashMap::new();
             let mut sig = Vec::new();
             let mut has_sigma = true;
             for p in &loaded.data.profiles {
                 let kk = request.times.len();
                 request.times.push(p.time);
                 for (n, &x) in p.position.iter().enumerate() {
-                    let o = match xs.iter().position(|&y| y == x) {
-                        Some(o) => o,
-                        None => {
+                    // `+ 0.0` turns −0 into +0, so the two compare equal as with `==`; a NaN
+                    // (never equal to itself) gets its own entry as before.
+                    let o = if x.is_nan() {
+                        xs.push(x);
+                        xs.len() - 1
+                    } else {
+                        *index_of.entry((x + 0.0).to_bits()).or_insert_with(|| {
                             xs.push(x);
                             xs.len() - 1
-                        }
+                        })
                     };
                     map.push((o, kk));
                     observed.push(p.value.get(n).copied().unwrap_or(f64::NAN));

@@ -346,7 +346,7 @@ fn describe(a: &Analysis) -> String {
 #[test]
 fn series_helpers_match_published_values() {
     // Crank 1975 §4.3.4: D t½ / L² = 0.0492 (exact root 0.0491827,
-    // /work/shared/reference/computed_values.json).
+    // the shared reference values, computed_values.json).
     let (mut a, mut b) = (0.01, 0.1);
     for _ in 0..100 {
         let m = 0.5 * (a + b);

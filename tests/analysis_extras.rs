@@ -18,45 +18,12 @@ use std::f64::consts::PI;
 use std::fmt::Write as _;
 use std::sync::Arc;
 
+mod common;
+use common::{robin_fraction, robin_roots, sheet_fraction};
+
 const D_TRUE: f64 = 1.0e-12; // m²/s
 const L: f64 = 100e-6; // m, full thickness
 const M_INF_MG: f64 = 0.8; // mg
-
-/// Crank eq. 4.18.
-fn sheet_fraction(tau: f64) -> f64 {
-    let mut s = 0.0;
-    for n in 0..400 {
-        let k = (2 * n + 1) as f64;
-        s += 8.0 / (k * k * PI * PI) * (-(k * k) * PI * PI * tau).exp();
-    }
-    1.0 - s
-}
-
-/// Roots of β tan β = Bi, by bisection on (nπ, nπ + π/2).
-fn robin_roots(bi: f64, count: usize) -> Vec<f64> {
-    (0..count)
-        .map(|n| {
-            let (mut a, mut b) = (n as f64 * PI + 1e-12, n as f64 * PI + PI / 2.0 - 1e-12);
-            for _ in 0..200 {
-                let m = 0.5 * (a + b);
-                if m * m.tan() - bi > 0.0 {
-                    b = m;
-                } else {
-                    a = m;
-                }
-            }
-            0.5 * (a + b)
-        })
-        .collect()
-}
-
-/// Crank eq. 4.55, T = D t / ℓ².
-fn robin_fraction(t_reduced: f64, bi: f64, roots: &[f64]) -> f64 {
-    1.0 - roots
-        .iter()
-        .map(|b| 2.0 * bi * bi * (-b * b * t_reduced).exp() / (b * b * (b * b + bi * bi + bi)))
-        .sum::<f64>()
-}
 
 /// 50 times, log-spaced over D t / L² from 0.002 to `tau_end`, in s.
 fn times(tau_end: f64) -> Vec<f64> {

@@ -38,6 +38,7 @@
 
 pub mod assemble;
 pub mod grid;
+mod linear_step;
 pub mod observe;
 pub mod tridiag;
 
@@ -49,7 +50,7 @@ use crate::error::{Error, Result};
 use crate::model::{End, EndCondition, Model};
 use assemble::{FaceWork, Operator};
 use observe::Stencil;
-use tridiag::Factored;
+use tridiag::{Factored, TwoWay};
 
 const GAMMA: f64 = 2.0 - std::f64::consts::SQRT_2;
 const D_COEF: f64 = GAMMA / 2.0;
@@ -179,6 +180,7 @@ struct Work {
     mu: Vec<f64>,
     faces: FaceWork,
     fact: Factored,
+    two: TwoWay,
 }
 
 impl Work {
@@ -206,6 +208,7 @@ impl Work {
         }
         self.faces = FaceWork::with_len(n);
         self.fact = Factored::with_len(n);
+        self.two = TwoWay::with_len(n);
     }
 }
 
@@ -563,8 +566,10 @@ impl Solver {
             }
             let c = D_COEF * hs;
             let adaptive = matches!(plan, StepPlan::Adaptive);
+            let mut linear_outcome = None;
             let ok = if linear {
-                self.step_linear(model, t, hs, c, &mut last_c, adaptive)
+                linear_outcome = self.step_linear(model, t, hs, c, &mut last_c, adaptive, scale);
+                linear_outcome.is_some()
             } else {
                 self.step(model, t, hs, c, &mut last_c, &mut stats)
             };
@@ -585,7 +590,9 @@ impl Solver {
             }
             // Error norm with weights atol + rtol |u| (adaptive steps only).
             let w = &self.work;
-            let enorm = if matches!(plan, StepPlan::Adaptive) {
+            let enorm = if let (true, Some(o)) = (adaptive, linear_outcome) {
+                o.error_norm
+            } else if adaptive {
                 let mut sc = scale;
                 for x in &w.u {
                     sc = sc.max(x.abs());
@@ -635,7 +642,10 @@ impl Solver {
                 let expected = amount0
                     + cum.0 * self.end_area(model, End::Left)
                     + cum.1 * self.end_area(model, End::Right);
-                let now = self.amount(model, &self.work.u);
+                let now = match linear_outcome {
+                    Some(o) => o.measure_sum * model.geometry.shape.measure_factor(),
+                    None => self.amount(model, &self.work.u),
+                };
                 let drift = expected - now;
                 let size = now.abs().max(amount0.abs()).max(f64::MIN_POSITIVE);
                 stats.largest_amount_correction =
@@ -773,14 +783,10 @@ impl Solver {
         false
     }
 
-    /// One TR-BDF2 step of a linear problem, in increment form so that round-off scales with
-    /// the change over the step, not with the state (this keeps a sealed sample's amount
-    /// constant to round-off):
-    ///
-    /// ```text
-    ///   (I − cJ) δ₁ = c (F_n + F(u_n, t+γh)),        u_γ = u_n + δ₁
-    ///   (I − cJ) δ₂ = b δ₁ + c F(u_γ, t+h),          u_{n+1} = u_γ + δ₂
-    /// ```
+    /// One TR-BDF2 step of a linear problem (the fused sweeps of [`linear_step`]); `None` when
+    /// the matrix is singular or the new state is not finite. The matrix is factored again
+    /// only when c changed.
+    #[allow(clippy::too_many_arguments)]
     fn step_linear(
         &mut self,
         model: &Model,
@@ -789,80 +795,66 @@ impl Solver {
         c: f64,
         last_c: &mut f64,
         estimate: bool,
-    ) -> bool {
+        scale: f64,
+    ) -> Option<linear_step::Outcome> {
         let n = self.work.u.len();
-        let b_c = (1.0 - GAMMA).powi(2) / (GAMMA * (2.0 - GAMMA));
+        let w = &mut self.work;
         if c != *last_c {
-            if !self.factor(c) {
-                return false;
+            if !w.two.factor(c, &w.jl, &w.jd, &w.ju) {
+                *last_c = f64::NAN;
+                return None;
             }
             *last_c = c;
         }
         // Forcing b(t) = F(0, t): the source term inside, plus the end terms in the end cells.
         // Grids always have at least two cells (GridOptions::validate).
-        let src = self.op.source_const();
-        let forcing = |t: f64| {
-            (
-                self.op.linear_forcing(model, t, 0, n),
-                self.op.linear_forcing(model, t, n - 1, n),
+        let op = &self.op;
+        let forcing = linear_step::Forcing {
+            interior: op.source_const(),
+            first_g: op.linear_forcing(model, t + GAMMA * h, 0, n),
+            last_g: op.linear_forcing(model, t + GAMMA * h, n - 1, n),
+            first_1: op.linear_forcing(model, t + h, 0, n),
+            last_1: op.linear_forcing(model, t + h, n - 1, n),
+        };
+        let bands = linear_step::Bands {
+            jl: &w.jl,
+            jd: &w.jd,
+            ju: &w.ju,
+        };
+        let vectors = linear_step::Vectors {
+            u: &mut w.u,
+            u_n: &mut w.u_n,
+            u_g: &mut w.u_g,
+            f_n: &w.f_n,
+            f_g: &mut w.f_g,
+            f_1: &mut w.f_1,
+            est: &mut w.est,
+            delta: &mut w.delta,
+        };
+        let constants = linear_step::Constants {
+            gamma: GAMMA,
+            err_coef: ERR_COEF,
+        };
+        let weights = linear_step::ErrorWeights {
+            tolerance: self.options.tolerance,
+            scale,
+        };
+        let measures = &self.grid.measures;
+        let out = if estimate {
+            linear_step::step::<true>(
+                &w.two, &bands, forcing, &constants, c, h, measures, vectors, weights,
+            )
+        } else {
+            linear_step::step::<false>(
+                &w.two, &bands, forcing, &constants, c, h, measures, vectors, weights,
             )
         };
-        let (b0, bn) = forcing(t + GAMMA * h);
-        let (b0_1, bn_1) = forcing(t + h);
-        let inv_c = 1.0 / c;
-        let w = &mut self.work;
-        let (jl, jd, ju) = (&w.jl[..n], &w.jd[..n], &w.ju[..n]);
-        // Stage 1: δ₁ = c (F_n + J u_n + b(t+γh)), and u_n = u.
-        {
-            let (u, f_n, delta) = (&w.u[..n], &w.f_n[..n], &mut w.delta[..n]);
-            delta[0] = c * (f_n[0] + jd[0] * u[0] + ju[0] * u[1] + b0);
-            for i in 1..n - 1 {
-                delta[i] = c * (f_n[i] + jl[i] * u[i - 1] + jd[i] * u[i] + ju[i] * u[i + 1] + src);
-            }
-            delta[n - 1] = c * (f_n[n - 1] + jl[n - 1] * u[n - 2] + jd[n - 1] * u[n - 1] + bn);
-            w.u_n[..n].copy_from_slice(u);
+        if !out.finite {
+            // Leave the state as it was before the step, for a retry with a shorter one.
+            w.u.copy_from_slice(&w.u_n);
+            return None;
         }
-        w.fact.solve(&mut w.delta);
-        for i in 0..n {
-            w.u_g[i] = w.u_n[i] + w.delta[i];
-            w.est[i] = b_c * w.delta[i]; // b δ₁, kept for F_{n+1}
-        }
-        if estimate {
-            for i in 0..n {
-                w.f_g[i] = w.delta[i] * inv_c - w.f_n[i];
-            }
-        }
-        // Stage 2: δ₂ = b δ₁ + c (J u_γ + b(t+h)).
-        {
-            let (ug, est, delta) = (&w.u_g[..n], &w.est[..n], &mut w.delta[..n]);
-            delta[0] = est[0] + c * (jd[0] * ug[0] + ju[0] * ug[1] + b0_1);
-            for i in 1..n - 1 {
-                delta[i] =
-                    est[i] + c * (jl[i] * ug[i - 1] + jd[i] * ug[i] + ju[i] * ug[i + 1] + src);
-            }
-            delta[n - 1] = est[n - 1] + c * (jl[n - 1] * ug[n - 2] + jd[n - 1] * ug[n - 1] + bn_1);
-        }
-        w.fact.solve(&mut w.delta);
-        let mut finite = 0.0;
-        for i in 0..n {
-            let x = w.u_g[i] + w.delta[i];
-            w.u[i] = x;
-            finite += x;
-            w.f_1[i] = (w.delta[i] - w.est[i]) * inv_c;
-        }
-        if estimate {
-            let (e0, e1, e2) = (
-                2.0 * ERR_COEF * h / GAMMA,
-                2.0 * ERR_COEF * h / (GAMMA * (1.0 - GAMMA)),
-                2.0 * ERR_COEF * h / (1.0 - GAMMA),
-            );
-            for i in 0..n {
-                w.est[i] = e0 * w.f_n[i] - e1 * w.f_g[i] + e2 * w.f_1[i];
-            }
-            w.fact.solve(&mut w.est);
-        }
-        // A NaN or infinity anywhere makes the sum non-finite.
-        finite.is_finite()
+        Some(out)
     }
 
     /// One TR-BDF2 step of a nonlinear problem from (t, u) of size h; leaves u_{n+1} in u,

@@ -80,6 +80,142 @@ impl Factored {
     }
 }
 
+/// The matrix `I − c J` of a linear TR-BDF2 step, factored twice: top-down (LU) and bottom-up
+/// (UL). The two factorizations share one pass (two independent recurrences), and let the
+/// stepper run the back-substitution of one stage and the elimination of the next in the same
+/// sweep (see [`crate::solver::linear_step`]).
+///
+/// With row i of the matrix `a_i x_{i−1} + d_i x_i + e_i x_{i+1}`:
+///
+/// ```text
+///   LU:  w_0 = d_0,      m_i = a_i / w_{i−1},  w_i = d_i − m_i e_{i−1},   g_i = e_i / w_i
+///        y_i = r_i − m_i y_{i−1},  z_i = y_i / w_i,  x_i = z_i − g_i x_{i+1}      (down, then up)
+///   UL:  v_{n−1} = d_{n−1},  k_i = e_i / v_{i+1},  v_i = d_i − k_i a_{i+1},   q_i = a_i / v_i
+///        y_i = r_i − k_i y_{i+1},  z_i = y_i / v_i,  x_i = z_i − q_i x_{i−1}      (up, then down)
+/// ```
+///
+/// Every loop-carried dependency of a solve is then a single multiply-add.
+#[derive(Debug, Clone, Default)]
+pub struct TwoWay {
+    /// LU multipliers m_i.
+    pub m: Vec<f64>,
+    /// 1 / w_i.
+    pub inv_w: Vec<f64>,
+    /// g_i = e_i / w_i.
+    pub g: Vec<f64>,
+    /// UL multipliers k_i.
+    pub k: Vec<f64>,
+    /// 1 / v_i.
+    pub inv_v: Vec<f64>,
+    /// q_i = a_i / v_i.
+    pub q: Vec<f64>,
+}
+
+impl TwoWay {
+    /// Workspace for n unknowns.
+    pub fn with_len(n: usize) -> Self {
+        TwoWay {
+            m: vec![0.0; n],
+            inv_w: vec![0.0; n],
+            g: vec![0.0; n],
+            k: vec![0.0; n],
+            inv_v: vec![0.0; n],
+            q: vec![0.0; n],
+        }
+    }
+
+    /// Factor `I − c J` for the Jacobian bands `(jl, jd, ju)` (n ≥ 2). Returns false on a zero
+    /// or non-finite pivot.
+    pub fn factor(&mut self, c: f64, jl: &[f64], jd: &[f64], ju: &[f64]) -> bool {
+        let n = jd.len();
+        if n < 2 || jl.len() < n || ju.len() < n {
+            return false;
+        }
+        for v in [
+            &mut self.m,
+            &mut self.inv_w,
+            &mut self.g,
+            &mut self.k,
+            &mut self.inv_v,
+            &mut self.q,
+        ] {
+            v.resize(n, 0.0);
+        }
+        let (m, inv_w, g) = (&mut self.m[..n], &mut self.inv_w[..n], &mut self.g[..n]);
+        let (k, inv_v, q) = (&mut self.k[..n], &mut self.inv_v[..n], &mut self.q[..n]);
+        let (jl, jd, ju) = (&jl[..n], &jd[..n], &ju[..n]);
+        // Both recurrences advance in one loop: LU at row j, UL at row n − 1 − j.
+        let mut w = 1.0 - c * jd[0];
+        let mut v = 1.0 - c * jd[n - 1];
+        let mut ok = w.is_finite() & (w != 0.0) & v.is_finite() & (v != 0.0);
+        let mut iw = 1.0 / w;
+        let mut iv = 1.0 / v;
+        inv_w[0] = iw;
+        inv_v[n - 1] = iv;
+        m[0] = 0.0;
+        k[n - 1] = 0.0;
+        g[n - 1] = 0.0;
+        q[0] = 0.0;
+        for j in 1..n {
+            // LU, row j.
+            let e_prev = -c * ju[j - 1];
+            let a = -c * jl[j];
+            g[j - 1] = e_prev * iw;
+            let mj = a * iw;
+            m[j] = mj;
+            w = (1.0 - c * jd[j]) - mj * e_prev;
+            iw = 1.0 / w;
+            inv_w[j] = iw;
+            // UL, row r = n − 1 − j.
+            let r = n - 1 - j;
+            let a_next = -c * jl[r + 1];
+            let e = -c * ju[r];
+            q[r + 1] = a_next * iv;
+            let kr = e * iv;
+            k[r] = kr;
+            v = (1.0 - c * jd[r]) - kr * a_next;
+            iv = 1.0 / v;
+            inv_v[r] = iv;
+            ok &= w.is_finite() & (w != 0.0) & v.is_finite() & (v != 0.0);
+        }
+        ok
+    }
+
+    /// Solve in place by LU (down, then up); `x` holds the right-hand side on entry.
+    pub fn solve_lu(&self, x: &mut [f64]) {
+        let n = x.len();
+        let (m, inv_w, g) = (&self.m[..n], &self.inv_w[..n], &self.g[..n]);
+        let mut y = x[0];
+        x[0] = y * inv_w[0];
+        for i in 1..n {
+            y = x[i] - m[i] * y;
+            x[i] = y * inv_w[i];
+        }
+        let mut next = x[n - 1];
+        for i in (0..n - 1).rev() {
+            next = x[i] - g[i] * next;
+            x[i] = next;
+        }
+    }
+
+    /// Solve in place by UL (up, then down); `x` holds the right-hand side on entry.
+    pub fn solve_ul(&self, x: &mut [f64]) {
+        let n = x.len();
+        let (k, inv_v, q) = (&self.k[..n], &self.inv_v[..n], &self.q[..n]);
+        let mut y = x[n - 1];
+        x[n - 1] = y * inv_v[n - 1];
+        for i in (0..n - 1).rev() {
+            y = x[i] - k[i] * y;
+            x[i] = y * inv_v[i];
+        }
+        let mut prev = x[0];
+        for i in 1..n {
+            prev = x[i] - q[i] * prev;
+            x[i] = prev;
+        }
+    }
+}
+
 /// One-shot Thomas solve (factor and solve together), the baseline the benchmarks compare
 /// against. `scratch` must have the length of `diag`. `x` holds the right-hand side on entry.
 pub fn solve_tridiagonal(
@@ -131,5 +267,52 @@ mod tests {
             assert!((x[i] - (i + 1) as f64).abs() < 1e-14);
             assert!((y[i] - (i + 1) as f64).abs() < 1e-14);
         }
+    }
+
+    #[test]
+    fn two_way_factors_solve_the_same_system_both_ways() {
+        // I − c J with J = tridiag(1, −2, 1) on 7 unknowns, c = 0.3, and a non-symmetric
+        // perturbation; x = (1, −2, 3, …) and r = A x computed directly.
+        let n = 7;
+        let c = 0.3;
+        let jl: Vec<f64> = (0..n).map(|i| 1.0 + 0.1 * i as f64).collect();
+        let jd: Vec<f64> = (0..n).map(|i| -2.0 - 0.05 * i as f64).collect();
+        let ju: Vec<f64> = (0..n).map(|i| 0.9 + 0.02 * i as f64).collect();
+        let x: Vec<f64> = (0..n)
+            .map(|i| (i + 1) as f64 * if i % 2 == 0 { 1.0 } else { -1.0 })
+            .collect();
+        let mut r = vec![0.0; n];
+        for i in 0..n {
+            r[i] = (1.0 - c * jd[i]) * x[i];
+            if i > 0 {
+                r[i] -= c * jl[i] * x[i - 1];
+            }
+            if i + 1 < n {
+                r[i] -= c * ju[i] * x[i + 1];
+            }
+        }
+        let mut tw = TwoWay::with_len(n);
+        assert!(tw.factor(c, &jl, &jd, &ju));
+        let mut a = r.clone();
+        tw.solve_lu(&mut a);
+        let mut b = r.clone();
+        tw.solve_ul(&mut b);
+        for i in 0..n {
+            assert!(
+                (a[i] - x[i]).abs() < 1e-13,
+                "LU row {i}: {} vs {}",
+                a[i],
+                x[i]
+            );
+            assert!(
+                (b[i] - x[i]).abs() < 1e-13,
+                "UL row {i}: {} vs {}",
+                b[i],
+                x[i]
+            );
+        }
+        // A singular matrix (zero pivot) is reported, not divided through.
+        let zero = vec![0.0; n];
+        assert!(!tw.factor(1.0, &zero, &vec![1.0; n], &zero));
     }
 }

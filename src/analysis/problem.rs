@@ -13,10 +13,11 @@
 //!   finite-difference Jacobian sees no jumps from a changing adaptive step sequence.
 
 use crate::error::{Error, Result};
-use crate::experiment::Experiment;
+use crate::experiment::{Dataset, Experiment};
 use crate::fit::problem::{DatasetRange, ResidualProblem};
 use crate::model::Model;
 use crate::solver::{Solution, Solver, StepPlan};
+use rayon::prelude::*;
 use std::sync::Arc;
 
 /// Relative parameter change below which a run replays its last step sequence.
@@ -31,6 +32,9 @@ struct RunState {
     last_model: Option<Model>,
     last_solution: Solution,
     prediction: Vec<f64>,
+    /// Spare solvers for the perturbed points of a batch (finite-difference columns), kept
+    /// between batches so that no work space is allocated again.
+    spares: Vec<Solver>,
 }
 
 /// The residual problem of an experiment.
@@ -61,6 +65,7 @@ impl ExperimentProblem {
                 last_model: None,
                 last_solution: Solution::default(),
                 prediction: Vec::with_capacity(d.len()),
+                spares: Vec::new(),
             });
         }
         offsets.push(n);
@@ -103,58 +108,86 @@ impl ExperimentProblem {
 
     /// Predictions of every dataset at `params` (SI, data order), by solving each run.
     pub fn predictions(&mut self, params: &[f64]) -> Result<Vec<Vec<f64>>> {
-        let mut out = Vec::with_capacity(self.runs.len());
-        for d in 0..self.runs.len() {
-            self.solve_run(d, params)?;
-            out.push(self.runs[d].prediction.clone());
+        self.solve_all(params)?;
+        Ok(self.runs.iter().map(|r| r.prediction.clone()).collect())
+    }
+
+    /// Solve every run at `params`, the runs in parallel.
+    fn solve_all(&mut self, params: &[f64]) -> Result<()> {
+        let experiment = &self.experiment;
+        let typical = &self.typical;
+        if self.runs.len() == 1 {
+            return solve_run(&experiment.datasets[0], &mut self.runs[0], typical, params);
         }
-        Ok(out)
+        self.runs
+            .par_iter_mut()
+            .enumerate()
+            .map(|(d, run)| solve_run(&experiment.datasets[d], run, typical, params))
+            .collect::<Result<Vec<()>>>()
+            .map(|_| ())
     }
 
-    fn near_base(&self, base: &[f64], params: &[f64]) -> bool {
-        base.iter()
-            .zip(params)
-            .zip(&self.typical)
-            .all(|((b, p), t)| {
-                (b - p).abs() <= REPLAY_RADIUS * b.abs().max(*t * 1e-6).max(f64::MIN_POSITIVE)
-            })
-    }
-
-    fn solve_run(&mut self, d: usize, params: &[f64]) -> Result<()> {
+    fn write_residuals(&self, d: usize, prediction: &[f64], out: &mut [f64]) {
         let dataset = &self.experiment.datasets[d];
-        let model = dataset.model_for(params)?;
-        let near = match &self.runs[d].base {
-            Some((b, _)) => self.near_base(b, params),
+        let s = self.scales[d];
+        let base = self.offsets[d];
+        for i in 0..dataset.len() {
+            out[base + i] = (dataset.observed[i] - prediction[i]) / (dataset.sigma[i] * s);
+        }
+    }
+}
+
+/// Whether `params` lie within [`REPLAY_RADIUS`] of `base`, parameter by parameter.
+fn near_base(typical: &[f64], base: &[f64], params: &[f64]) -> bool {
+    base.iter().zip(params).zip(typical).all(|((b, p), t)| {
+        (b - p).abs() <= REPLAY_RADIUS * b.abs().max(*t * 1e-6).max(f64::MIN_POSITIVE)
+    })
+}
+
+/// Solve one run at `params` (unless its model is unchanged) and leave its prediction in
+/// `run.prediction`. A point near the run's last error-controlled solve replays that solve's
+/// steps; any other point is solved with error control and becomes the new base.
+fn solve_run(dataset: &Dataset, run: &mut RunState, typical: &[f64], params: &[f64]) -> Result<()> {
+    let model = dataset.model_for(params)?;
+    if run.last_model.as_ref() != Some(&model) {
+        let near = match &run.base {
+            Some((b, _)) => near_base(typical, b, params),
             None => false,
         };
-        let run = &mut self.runs[d];
-        if run.last_model.as_ref() != Some(&model) {
-            let replayed = match (&run.base, near) {
-                (Some((_, schedule)), true) => {
-                    match run.solver.solve_with(
-                        &model,
-                        &dataset.request,
-                        StepPlan::Replay(schedule),
-                    ) {
-                        Ok(sol) => {
-                            run.last_solution.clone_from(sol);
-                            true
-                        }
-                        Err(_) => false,
+        let replayed = match (&run.base, near) {
+            (Some((_, schedule)), true) => {
+                match run
+                    .solver
+                    .solve_with(&model, &dataset.request, StepPlan::Replay(schedule))
+                {
+                    Ok(sol) => {
+                        run.last_solution.clone_from(sol);
+                        true
                     }
+                    Err(_) => false,
                 }
-                _ => false,
-            };
-            if !replayed {
-                let sol = run.solver.solve(&model, &dataset.request)?;
-                run.last_solution.clone_from(sol);
-                let schedule = run.solver.schedule().to_vec();
-                run.base = Some((params.to_vec(), schedule));
             }
-            run.last_model = Some(model);
+            _ => false,
+        };
+        if !replayed {
+            let sol = run.solver.solve(&model, &dataset.request)?;
+            run.last_solution.clone_from(sol);
+            let schedule = run.solver.schedule().to_vec();
+            run.base = Some((params.to_vec(), schedule));
         }
-        dataset.predict_into(params, &run.last_solution, &mut run.prediction)
+        run.last_model = Some(model);
     }
+    dataset.predict_into(params, &run.last_solution, &mut run.prediction)
+}
+
+/// One perturbed point of one run in a batch: solved on a spare solver, replaying the run's
+/// base steps when near it, never changing the run's own state.
+struct Task<'a> {
+    point: usize,
+    model: Model,
+    solver: Solver,
+    schedule: Option<&'a [f64]>,
+    result: Result<Solution>,
 }
 
 impl ResidualProblem for ExperimentProblem {
@@ -163,17 +196,111 @@ impl ResidualProblem for ExperimentProblem {
     }
 
     fn residuals(&mut self, params: &[f64], out: &mut [f64]) -> Result<()> {
+        self.solve_all(params)?;
         for d in 0..self.runs.len() {
-            self.solve_run(d, params)?;
-            let dataset = &self.experiment.datasets[d];
-            let s = self.scales[d];
-            let base = self.offsets[d];
-            let pred = &self.runs[d].prediction;
-            for i in 0..dataset.len() {
-                out[base + i] = (dataset.observed[i] - pred[i]) / (dataset.sigma[i] * s);
-            }
+            let pred = std::mem::take(&mut self.runs[d].prediction);
+            self.write_residuals(d, &pred, out);
+            self.runs[d].prediction = pred;
         }
         Ok(())
+    }
+
+    /// The points of a finite-difference Jacobian, solved in parallel: first the base point
+    /// (it becomes the runs' replay base when it is not near the last one), then every
+    /// (point, run) pair whose model differs from the base's, each on a spare solver that
+    /// replays the base steps. A point whose model equals the base's for a run (only a scale
+    /// or offset moved) reuses the base solution.
+    fn residuals_batch(
+        &mut self,
+        base: &[f64],
+        points: &[Vec<f64>],
+        outs: &mut [Vec<f64>],
+    ) -> Vec<Result<()>> {
+        let mut status: Vec<Result<()>> = (0..points.len()).map(|_| Ok(())).collect();
+        if let Err(e) = self.solve_all(base) {
+            let message = e.to_string();
+            return points
+                .iter()
+                .map(|_| Err(Error::Internal(format!("the base point failed: {message}"))))
+                .collect();
+        }
+        let experiment = self.experiment.clone();
+        for (d, dataset) in experiment.datasets.iter().enumerate() {
+            let typical = &self.typical;
+            let run = &mut self.runs[d];
+            let Some(base_model) = run.last_model.clone() else {
+                continue;
+            };
+            let schedule = run
+                .base
+                .as_ref()
+                .filter(|(b, _)| near_base(typical, b, base))
+                .map(|(_, s)| s.as_slice());
+            let mut tasks = Vec::new();
+            for (k, point) in points.iter().enumerate() {
+                if status[k].is_err() {
+                    continue;
+                }
+                match dataset.model_for(point) {
+                    Ok(model) if model == base_model => {}
+                    Ok(model) => {
+                        let solver = run.spares.pop().unwrap_or_else(|| run.solver.clone());
+                        let near = near_base(typical, base, point);
+                        tasks.push(Task {
+                            point: k,
+                            model,
+                            solver,
+                            schedule: schedule.filter(|_| near),
+                            result: Ok(Solution::default()),
+                        });
+                    }
+                    Err(e) => status[k] = Err(e),
+                }
+            }
+            tasks.par_iter_mut().for_each(|task| {
+                let plan = match task.schedule {
+                    Some(s) => StepPlan::Replay(s),
+                    None => StepPlan::Adaptive,
+                };
+                let replayed = task.solver.solve_with(&task.model, &dataset.request, plan);
+                task.result = match replayed {
+                    Ok(sol) => Ok(sol.clone()),
+                    Err(_) if task.schedule.is_some() => task
+                        .solver
+                        .solve(&task.model, &dataset.request)
+                        .cloned(),
+                    Err(e) => Err(e),
+                };
+            });
+            let mut pred = Vec::with_capacity(dataset.len());
+            let mut solved: Vec<Option<Result<Solution>>> =
+                (0..points.len()).map(|_| None).collect();
+            for task in tasks {
+                run.spares.push(task.solver);
+                solved[task.point] = Some(task.result);
+            }
+            for (k, point) in points.iter().enumerate() {
+                if status[k].is_err() {
+                    continue;
+                }
+                let r = match solved[k].take() {
+                    Some(Ok(sol)) => dataset.predict_into(point, &sol, &mut pred),
+                    Some(Err(e)) => Err(e),
+                    None => dataset.predict_into(point, &run.last_solution, &mut pred),
+                };
+                match r {
+                    Ok(()) => {
+                        let out = &mut outs[k];
+                        let (s, off) = (self.scales[d], self.offsets[d]);
+                        for i in 0..dataset.len() {
+                            out[off + i] = (dataset.observed[i] - pred[i]) / (dataset.sigma[i] * s);
+                        }
+                    }
+                    Err(e) => status[k] = Err(e),
+                }
+            }
+        }
+        status
     }
 
     fn datasets(&self) -> Vec<DatasetRange> {

@@ -32,8 +32,24 @@ fn step(u: f64, c: f64) -> (f64, f64) {
 }
 
 /// Jacobian at `u` (m × p), given the residuals `r0` at `u`. `None` when a column cannot be
-/// formed because neither side of the difference can be evaluated.
+/// formed because neither side of the difference can be evaluated. The perturbed points go to
+/// the problem as one batch ([`Evaluator::eval_batch`]), which may solve them in parallel. A
+/// Jacobian asked for again at the same point with the same scheme is not formed again.
 pub fn jacobian<P: ResidualProblem>(
+    ev: &mut Evaluator<P>,
+    u: &[f64],
+    r0: &[f64],
+    scheme: Difference,
+) -> Option<DMatrix<f64>> {
+    if let Some(j) = ev.cached_jacobian(u, scheme) {
+        return Some(j);
+    }
+    let jac = differences(ev, u, r0, scheme)?;
+    ev.remember_jacobian(u, scheme, &jac);
+    Some(jac)
+}
+
+fn differences<P: ResidualProblem>(
     ev: &mut Evaluator<P>,
     u: &[f64],
     r0: &[f64],
@@ -41,43 +57,81 @@ pub fn jacobian<P: ResidualProblem>(
 ) -> Option<DMatrix<f64>> {
     let m = r0.len();
     let p = u.len();
-    let mut jac = DMatrix::<f64>::zeros(m, p);
-    let mut x = u.to_vec();
-    let mut rp = vec![0.0; m];
-    let mut rm = vec![0.0; m];
+    let jac = DMatrix::<f64>::zeros(m, p);
     let c = match scheme {
         Difference::Forward => f64::EPSILON.sqrt(),
         Difference::Central => f64::EPSILON.cbrt(),
     };
-    for j in 0..p {
-        let (up, h) = step(u[j], c);
-        x[j] = up;
-        let plus = ev.eval(&x, &mut rp);
-        x[j] = u[j] - h;
-        let minus = match scheme {
-            Difference::Central => ev.eval(&x, &mut rm),
-            Difference::Forward if !plus => ev.eval(&x, &mut rm),
-            Difference::Forward => false,
-        };
-        x[j] = u[j];
+    let steps: Vec<(f64, f64)> = u.iter().map(|&x| step(x, c)).collect();
+    let shifted = |j: usize, x: f64| {
+        let mut v = u.to_vec();
+        v[j] = x;
+        v
+    };
+    // Points: u + h_j e_j for every j, then (central) u − h_j e_j.
+    let mut points: Vec<Vec<f64>> = (0..p).map(|j| shifted(j, steps[j].0)).collect();
+    if scheme == Difference::Central {
+        points.extend((0..p).map(|j| shifted(j, u[j] - steps[j].1)));
+    }
+    let mut outs = vec![vec![0.0; m]; points.len()];
+    let mut ok = ev.eval_batch(u, &points, &mut outs);
+    if scheme == Difference::Forward {
+        // A forward point that failed: try the backward side instead.
+        let failed: Vec<usize> = (0..p).filter(|&j| !ok[j]).collect();
+        if !failed.is_empty() {
+            let back: Vec<Vec<f64>> = failed
+                .iter()
+                .map(|&j| shifted(j, u[j] - steps[j].1))
+                .collect();
+            let mut back_outs = vec![vec![0.0; m]; back.len()];
+            let back_ok = ev.eval_batch(u, &back, &mut back_outs);
+            outs.extend(back_outs);
+            ok.extend(back_ok);
+            points.extend(back);
+            let mut minus_index = vec![None; p];
+            for (k, &j) in failed.iter().enumerate() {
+                minus_index[j] = Some(p + k);
+            }
+            return fill(jac, r0, &steps, &outs, &ok, |j| (Some(j), minus_index[j]));
+        }
+        return fill(jac, r0, &steps, &outs, &ok, |j| (Some(j), None));
+    }
+    fill(jac, r0, &steps, &outs, &ok, |j| (Some(j), Some(p + j)))
+}
+
+/// Columns from the evaluated points: `index(j)` gives the positions of the plus and minus
+/// points of column j in `outs`.
+fn fill(
+    mut jac: DMatrix<f64>,
+    r0: &[f64],
+    steps: &[(f64, f64)],
+    outs: &[Vec<f64>],
+    ok: &[bool],
+    index: impl Fn(usize) -> (Option<usize>, Option<usize>),
+) -> Option<DMatrix<f64>> {
+    let m = r0.len();
+    for (j, &(_, h)) in steps.iter().enumerate() {
+        let (plus, minus) = index(j);
+        let plus = plus.filter(|&k| ok[k]).map(|k| &outs[k]);
+        let minus = minus.filter(|&k| ok[k]).map(|k| &outs[k]);
         let mut col = jac.column_mut(j);
         match (plus, minus) {
-            (true, true) => {
+            (Some(rp), Some(rm)) => {
                 for i in 0..m {
                     col[i] = (rp[i] - rm[i]) / (2.0 * h);
                 }
             }
-            (true, false) => {
+            (Some(rp), None) => {
                 for i in 0..m {
                     col[i] = (rp[i] - r0[i]) / h;
                 }
             }
-            (false, true) => {
+            (None, Some(rm)) => {
                 for i in 0..m {
                     col[i] = (r0[i] - rm[i]) / h;
                 }
             }
-            (false, false) => return None,
+            (None, None) => return None,
         }
     }
     Some(jac)

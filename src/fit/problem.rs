@@ -27,6 +27,26 @@ pub trait ResidualProblem: Clone + Send {
     /// parameters) makes the optimiser reject the point; it does not end the fit.
     fn residuals(&mut self, params: &[f64], out: &mut [f64]) -> Result<()>;
 
+    /// Residuals at several `points` close to `base` (the columns of a finite-difference
+    /// Jacobian at `base`), into `outs` (one vector of length
+    /// [`ResidualProblem::n_residuals`] per point); one status per point. An implementation
+    /// may solve the points in parallel and reuse the work done at `base`; the results must
+    /// equal those of [`ResidualProblem::residuals`] at each point to rounding. Default: one
+    /// point after another.
+    fn residuals_batch(
+        &mut self,
+        base: &[f64],
+        points: &[Vec<f64>],
+        outs: &mut [Vec<f64>],
+    ) -> Vec<Result<()>> {
+        let _ = base;
+        points
+            .iter()
+            .zip(outs.iter_mut())
+            .map(|(p, o)| self.residuals(p, o))
+            .collect()
+    }
+
     /// The datasets as named index ranges into the residual vector, for the per-dataset
     /// residual checks and bootstrap resampling. Default: one dataset, `all`.
     fn datasets(&self) -> Vec<DatasetRange> {
@@ -155,6 +175,23 @@ impl<P: ResidualProblem> ResidualProblem for ShiftedProblem<P> {
         }
         Ok(())
     }
+
+    fn residuals_batch(
+        &mut self,
+        base: &[f64],
+        points: &[Vec<f64>],
+        outs: &mut [Vec<f64>],
+    ) -> Vec<Result<()>> {
+        let status = self.inner.residuals_batch(base, points, outs);
+        for (out, st) in outs.iter_mut().zip(&status) {
+            if st.is_ok() {
+                for (o, s) in out.iter_mut().zip(&self.shift) {
+                    *o += s;
+                }
+            }
+        }
+        status
+    }
 }
 
 /// The engine's view of a problem: internal coordinates of the free parameters → residuals.
@@ -166,6 +203,12 @@ pub struct Evaluator<P> {
     n: usize,
     evaluations: usize,
     failures: usize,
+    /// The last Jacobian formed: internal point, difference scheme and matrix.
+    jacobian_cache: Option<(
+        Vec<f64>,
+        crate::fit::jacobian::Difference,
+        nalgebra::DMatrix<f64>,
+    )>,
 }
 
 impl<P: ResidualProblem> Evaluator<P> {
@@ -180,6 +223,7 @@ impl<P: ResidualProblem> Evaluator<P> {
             n,
             evaluations: 0,
             failures: 0,
+            jacobian_cache: None,
         }
     }
 
@@ -233,6 +277,71 @@ impl<P: ResidualProblem> Evaluator<P> {
             self.failures += 1;
         }
         ok
+    }
+
+    /// Residuals at several internal points `us` near `base` (see
+    /// [`ResidualProblem::residuals_batch`]) into `outs`; one flag per point, `false` as in
+    /// [`Evaluator::eval`].
+    pub fn eval_batch(
+        &mut self,
+        base: &[f64],
+        us: &[Vec<f64>],
+        outs: &mut [Vec<f64>],
+    ) -> Vec<bool> {
+        self.evaluations += us.len();
+        let mut full_base = self.full.clone();
+        self.params.fill_external(base, &mut full_base);
+        let points: Vec<Vec<f64>> = us
+            .iter()
+            .map(|u| {
+                let mut f = self.full.clone();
+                self.params.fill_external(u, &mut f);
+                f
+            })
+            .collect();
+        for o in outs.iter_mut() {
+            o.resize(self.n, 0.0);
+        }
+        let status = if full_base.iter().all(|v| v.is_finite()) {
+            self.problem.residuals_batch(&full_base, &points, outs)
+        } else {
+            points
+                .iter()
+                .map(|_| Err(Error::Internal("non-finite base point".into())))
+                .collect()
+        };
+        let flags: Vec<bool> = status
+            .iter()
+            .zip(&points)
+            .zip(outs.iter())
+            .map(|((st, p), o)| {
+                st.is_ok() && p.iter().all(|v| v.is_finite()) && o.iter().all(|v| v.is_finite())
+            })
+            .collect();
+        self.failures += flags.iter().filter(|f| !**f).count();
+        flags
+    }
+
+    /// The Jacobian last formed at exactly `u` with `scheme`, if any.
+    pub(crate) fn cached_jacobian(
+        &self,
+        u: &[f64],
+        scheme: crate::fit::jacobian::Difference,
+    ) -> Option<nalgebra::DMatrix<f64>> {
+        match &self.jacobian_cache {
+            Some((at, s, j)) if *s == scheme && at.as_slice() == u => Some(j.clone()),
+            _ => None,
+        }
+    }
+
+    /// Remember the Jacobian formed at `u` with `scheme`.
+    pub(crate) fn remember_jacobian(
+        &mut self,
+        u: &[f64],
+        scheme: crate::fit::jacobian::Difference,
+        jac: &nalgebra::DMatrix<f64>,
+    ) {
+        self.jacobian_cache = Some((u.to_vec(), scheme, jac.clone()));
     }
 
     /// Residual vector at `u`, or `None` (see [`Evaluator::eval`]).

@@ -126,6 +126,20 @@ impl TwoWay {
 
     /// Factor `I − c J` for the Jacobian bands `(jl, jd, ju)` (n ≥ 2). Returns false on a zero
     /// or non-finite pivot.
+    ///
+    /// The pivots come from the continuants rather than from the division recurrence
+    /// `w_i = d_i − a_i e_{i−1} / w_{i−1}`, whose loop-carried chain holds a division:
+    ///
+    /// ```text
+    ///   P_{−1} = 1,  P_0 = d_0,  P_i = d_i P_{i−1} − a_i e_{i−1} P_{i−2},   w_i = P_i / P_{i−1}
+    /// ```
+    ///
+    /// (and the mirror image from the bottom for the UL pivots). The chain is then one multiply
+    /// and one subtraction; the divisions run afterwards, independent of each other. The pair
+    /// (P_{i−1}, P_i) is rescaled by a power of two every eight rows, which changes no ratio
+    /// and keeps the continuants far from overflow. Should they still overflow, the classic
+    /// recurrence is used instead. Reference: G. H. Golub & C. F. Van Loan, *Matrix
+    /// Computations*, 4th ed. (2013), §4.3 (continuants of a tridiagonal matrix).
     pub fn factor(&mut self, c: f64, jl: &[f64], jd: &[f64], ju: &[f64]) -> bool {
         let n = jd.len();
         if n < 2 || jl.len() < n || ju.len() < n {
@@ -141,9 +155,79 @@ impl TwoWay {
         ] {
             v.resize(n, 0.0);
         }
+        if self.factor_by_continuants(c, &jl[..n], &jd[..n], &ju[..n]) {
+            return true;
+        }
+        self.factor_by_recurrence(c, &jl[..n], &jd[..n], &ju[..n])
+    }
+
+    fn factor_by_continuants(&mut self, c: f64, jl: &[f64], jd: &[f64], ju: &[f64]) -> bool {
+        let n = jd.len();
         let (m, inv_w, g) = (&mut self.m[..n], &mut self.inv_w[..n], &mut self.g[..n]);
         let (k, inv_v, q) = (&mut self.k[..n], &mut self.inv_v[..n], &mut self.q[..n]);
-        let (jl, jd, ju) = (&jl[..n], &jd[..n], &ju[..n]);
+        let c2 = c * c;
+        // Pass 1: continuants. inv_w[i] and inv_v[r] hold the numerators P_i, Q_r for now;
+        // g[i] and q[r] the denominators P_{i−1}, Q_{r+1} (in the same scale).
+        let (mut p0, mut p1) = (1.0, 1.0 - c * jd[0]);
+        let (mut q0, mut q1) = (1.0, 1.0 - c * jd[n - 1]);
+        inv_w[0] = p1;
+        g[0] = 1.0;
+        inv_v[n - 1] = q1;
+        q[n - 1] = 1.0;
+        for j in 1..n {
+            let p = (1.0 - c * jd[j]) * p1 - c2 * (jl[j] * ju[j - 1]) * p0;
+            inv_w[j] = p;
+            g[j] = p1;
+            p0 = p1;
+            p1 = p;
+            let r = n - 1 - j;
+            let qq = (1.0 - c * jd[r]) * q1 - c2 * (ju[r] * jl[r + 1]) * q0;
+            inv_v[r] = qq;
+            q[r] = q1;
+            q0 = q1;
+            q1 = qq;
+            if j % 8 == 0 {
+                let sp = power_of_two_scale(p1);
+                p0 *= sp;
+                p1 *= sp;
+                let sq = power_of_two_scale(q1);
+                q0 *= sq;
+                q1 *= sq;
+            }
+        }
+        // Pass 2: pivots as ratios, then multipliers.
+        let mut ok = true;
+        for i in 0..n {
+            let a = g[i] / inv_w[i];
+            let b = q[i] / inv_v[i];
+            ok &= a.is_finite() & (a != 0.0) & b.is_finite() & (b != 0.0);
+            inv_w[i] = a;
+            inv_v[i] = b;
+        }
+        if !ok {
+            return false;
+        }
+        m[0] = 0.0;
+        for i in 1..n {
+            m[i] = -c * jl[i] * inv_w[i - 1];
+        }
+        for i in 0..n - 1 {
+            g[i] = -c * ju[i] * inv_w[i];
+            k[i] = -c * ju[i] * inv_v[i + 1];
+        }
+        g[n - 1] = 0.0;
+        k[n - 1] = 0.0;
+        q[0] = 0.0;
+        for i in 1..n {
+            q[i] = -c * jl[i] * inv_v[i];
+        }
+        true
+    }
+
+    fn factor_by_recurrence(&mut self, c: f64, jl: &[f64], jd: &[f64], ju: &[f64]) -> bool {
+        let n = jd.len();
+        let (m, inv_w, g) = (&mut self.m[..n], &mut self.inv_w[..n], &mut self.g[..n]);
+        let (k, inv_v, q) = (&mut self.k[..n], &mut self.inv_v[..n], &mut self.q[..n]);
         // Both recurrences advance in one loop: LU at row j, UL at row n − 1 − j.
         let mut w = 1.0 - c * jd[0];
         let mut v = 1.0 - c * jd[n - 1];
@@ -214,6 +298,16 @@ impl TwoWay {
             x[i] = prev;
         }
     }
+}
+
+/// A power of two that brings `x` near 1 (1 for zero, subnormal or non-finite `x`): exact
+/// scaling, no rounding.
+fn power_of_two_scale(x: f64) -> f64 {
+    let e = (x.to_bits() >> 52) & 0x7ff;
+    if e == 0 || e == 0x7ff {
+        return 1.0;
+    }
+    f64::from_bits((2046 - e.min(2045)) << 52)
 }
 
 /// One-shot Thomas solve (factor and solve together), the baseline the benchmarks compare
@@ -310,6 +404,24 @@ mod tests {
                 b[i],
                 x[i]
             );
+        }
+        // Large steps on tiny cells: entries of 1e12 per row; the continuants are rescaled and
+        // agree with the classic recurrence.
+        let big: Vec<f64> = (0..40).map(|i| 1e12 * (1.0 + 0.01 * i as f64)).collect();
+        let bigd: Vec<f64> = big.iter().map(|b| -2.0 * b).collect();
+        let mut fast = TwoWay::with_len(40);
+        assert!(fast.factor_by_continuants(1.0, &big, &bigd, &big));
+        let mut slow = TwoWay::with_len(40);
+        assert!(slow.factor_by_recurrence(1.0, &big, &bigd, &big));
+        for i in 0..40 {
+            for (a, b) in [
+                (fast.inv_w[i], slow.inv_w[i]),
+                (fast.inv_v[i], slow.inv_v[i]),
+                (fast.m[i], slow.m[i]),
+                (fast.q[i], slow.q[i]),
+            ] {
+                assert!((a - b).abs() <= 1e-12 * b.abs(), "row {i}: {a} vs {b}");
+            }
         }
         // A singular matrix (zero pivot) is reported, not divided through.
         let zero = vec![0.0; n];

@@ -3,7 +3,9 @@
 //!
 //! r_i = (y_i − f_i(θ)) / (σ_i s_d), with σ_i the point's standard uncertainty (1 when none is
 //! given) and s_d a per-dataset scale (1 unless the datasets' scatter is estimated, see
-//! [`super::run`]). The prediction f_i comes from a forward solve of the dataset's run.
+//! [`super::run`]). The prediction f_i comes from a forward solve of the dataset's run. A
+//! reading censored at a detection limit has the one-sided residual of
+//! [`crate::experiment::floor`] (zero while f_i is at or below the limit).
 //!
 //! Two things keep the residuals a smooth, cheap function of θ:
 //! * a run whose model is unchanged (only a scale or offset parameter moved) is not solved
@@ -170,7 +172,8 @@ impl ResidualProblem for ExperimentProblem {
             let base = self.offsets[d];
             let pred = &self.runs[d].prediction;
             for i in 0..dataset.len() {
-                out[base + i] = (dataset.observed[i] - pred[i]) / (dataset.sigma[i] * s);
+                // (y − f)/(σ s), one-sided for a reading censored at a detection limit.
+                out[base + i] = dataset.residual(i, pred[i], dataset.sigma[i] * s);
             }
         }
         Ok(())

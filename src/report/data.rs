@@ -329,6 +329,34 @@ fn censoring_warnings(analysis: &Analysis) -> Vec<String> {
     out
 }
 
+/// Numbers in order, with every run of three or more equally spaced ones written as `a–b`:
+/// `700, 725, 750, 775, 850` → `700–775, 850`.
+fn ranges(xs: &[f64]) -> String {
+    let same_step = |a: f64, b: f64| (a - b).abs() <= 1e-9 * a.abs().max(b.abs());
+    let n = xs.len();
+    let mut parts = Vec::new();
+    let mut i = 0;
+    while i < n {
+        // The last index j of an equally spaced run starting at i.
+        let mut j = i;
+        if i + 1 < n && xs[i + 1] > xs[i] {
+            let step = xs[i + 1] - xs[i];
+            j = i + 1;
+            while j + 1 < n && same_step(xs[j + 1] - xs[j], step) {
+                j += 1;
+            }
+        }
+        if j - i + 1 >= 3 {
+            parts.push(format!("{}–{}", short(xs[i]), short(xs[j])));
+            i = j + 1;
+        } else {
+            parts.push(short(xs[i]));
+            i += 1;
+        }
+    }
+    parts.join(", ")
+}
+
 /// The report row of a dataset's detection limit; `predicted` are the fitted predictions.
 fn detection_limit_row(
     ds: &crate::experiment::Dataset,
@@ -379,8 +407,8 @@ fn detection_limit_row(
             .iter()
             .map(|(t, xs)| {
                 let (ts, tl) = time_unit(*t);
-                let xs: Vec<String> = xs.iter().map(|x| short(x / ls)).collect();
-                format!("at {} {tl}: {} {ll}", short(t / ts), xs.join(", "))
+                let xs: Vec<f64> = xs.iter().map(|x| x / ls).collect();
+                format!("at {} {tl}: {} {ll}", short(t / ts), ranges(&xs))
             })
             .collect();
         format!(" (depths {})", parts.join("; "))
@@ -754,5 +782,19 @@ impl ComparisonReport {
             models: rows,
             verdict: comparison.verdict.clone(),
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::ranges;
+
+    #[test]
+    fn runs_of_equal_steps_become_ranges() {
+        assert_eq!(ranges(&[700.0, 725.0, 750.0, 775.0, 850.0]), "700–775, 850");
+        assert_eq!(ranges(&[1.0, 2.0]), "1, 2");
+        assert_eq!(ranges(&[1.0, 2.0, 3.0, 5.0, 7.0, 9.0]), "1–3, 5–9");
+        assert_eq!(ranges(&[]), "");
+        assert_eq!(ranges(&[4.0]), "4");
     }
 }

@@ -100,7 +100,12 @@ pub fn derive_all(analysis: &Analysis) -> Vec<Derived> {
             DerivedWhat::Permeability {
                 diffusivity,
                 solubility,
-            } => out.extend(permeability(analysis, *diffusivity, *solubility)),
+            } => out.extend(permeability(
+                analysis,
+                &request.name,
+                *diffusivity,
+                *solubility,
+            )),
             DerivedWhat::TimeLag { dataset } => {
                 out.extend(time_lags(analysis, &request.name, *dataset))
             }
@@ -158,6 +163,7 @@ fn is_mol_per_m3(label: &str) -> bool {
 /// P = D S with its standard uncertainty (D and S correlated through the fit).
 fn permeability(
     analysis: &Analysis,
+    name: &str,
     diffusivity: usize,
     solubility: crate::experiment::Term,
 ) -> Vec<Derived> {
@@ -178,13 +184,13 @@ fn permeability(
     if is_mol_per_m3(&e.value_unit) {
         vec![
             Derived {
-                name: "permeability".into(),
+                name: name.to_string(),
                 description: description.clone(),
                 unit: "mol/(m s Pa)".into(),
                 value: value.clone(),
             },
             Derived {
-                name: "permeability[Barrer]".into(),
+                name: format!("{name}[Barrer]"),
                 description: format!(
                     "{description}, in Barrer (1 Barrer = 1e-10 cm3(STP) cm/(cm2 s cmHg) = {BARRER_SI:.5e} mol/(m s Pa))"
                 ),
@@ -195,7 +201,7 @@ fn permeability(
     } else {
         let s = flux_scale(e);
         vec![Derived {
-            name: "permeability".into(),
+            name: name.to_string(),
             description,
             unit: format!("{}·m2/(s·Pa)", e.value_unit),
             value: value.map(|(v, u)| (v / s, u / s)),

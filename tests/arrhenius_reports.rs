@@ -185,3 +185,72 @@ fn the_command_writes_a_plot_and_json() {
     assert_eq!(bad.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&bad.stderr).contains("--temperature"));
 }
+
+#[test]
+fn published_couple_through_fit_and_arrhenius() {
+    // The whole chain on synthetic data: depth profiles of carbon simulated at 1173, 1223 and
+    // 1273 K with D from Callister's D0 and Q (sample-data/anneal-series, made by `fickfit
+    // simulate` with noise; readings below the profiler's detection limit censored), each fitted
+    // with `fickfit fit`, then `fickfit arrhenius` on the three report.json files. D0 and Ea
+    // must lie within the reported 95 % intervals. Status of the values: D0 and Q confirmed
+    // in a stored problem statement quoting Callister's table (tests/data/reference/README.md).
+    let dir = tempfile::tempdir().unwrap();
+    let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("sample-data/anneal-series");
+    let mut reports = Vec::new();
+    for folder in ["1173K", "1223K", "1273K"] {
+        let out = dir.path().join(folder);
+        let run = Command::new(env!("CARGO_BIN_EXE_fickfit"))
+            .arg("fit")
+            .arg(root.join(folder).join("experiment.toml"))
+            .arg("--out")
+            .arg(&out)
+            .arg("--quiet")
+            .output()
+            .unwrap();
+        assert_eq!(
+            run.status.code(),
+            Some(0),
+            "{folder}: {}",
+            String::from_utf8_lossy(&run.stderr)
+        );
+        reports.push(out.join("report.json"));
+    }
+    let out = dir.path().join("arrhenius");
+    let run = Command::new(env!("CARGO_BIN_EXE_fickfit"))
+        .arg("arrhenius")
+        .args(&reports)
+        .arg("--out")
+        .arg(&out)
+        .output()
+        .unwrap();
+    assert!(
+        run.status.success(),
+        "{}",
+        String::from_utf8_lossy(&run.stderr)
+    );
+    let json: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("arrhenius.json")).unwrap())
+            .unwrap();
+    let interval = |key: &str| {
+        let a = json[key].as_array().unwrap();
+        (a[0].as_f64().unwrap(), a[1].as_f64().unwrap())
+    };
+    let (lo, hi) = interval("d0_interval");
+    assert!(lo < D0 && D0 < hi, "D0 {D0:e} outside [{lo:e}, {hi:e}]");
+    let (lo, hi) = interval("activation_energy_interval");
+    assert!(
+        lo < 148.0 && 148.0 < hi,
+        "Ea 148 kJ/mol outside [{lo}, {hi}]"
+    );
+    // Three points: the line has one degree of freedom, so the interval is wide (t = 12.7),
+    // but the estimate itself is close: the fits' D are good to about 1 %.
+    let ea = json["activation_energy_kj_mol"].as_f64().unwrap();
+    assert!((ea / 148.0 - 1.0).abs() < 0.05, "Ea {ea} kJ/mol");
+    let temps: Vec<f64> = json["points"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|p| p["temperature_k"].as_f64().unwrap())
+        .collect();
+    assert_eq!(temps, vec![1173.0, 1223.0, 1273.0]);
+}

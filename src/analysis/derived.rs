@@ -5,7 +5,14 @@
 //!   uncertainties (independent of the fit);
 //! - the time a run takes to reach a fraction (default 95 %) of its equilibrium uptake, from
 //!   the fitted model's fractional uptake `(M_t − M_0)/(M_∞ − M_0)`;
-//! - the flux in through an end at given times, `J = −D ∂u/∂x` at that face (positive in).
+//! - the flux in through an end at given times, `J = −D ∂u/∂x` at that face (positive in);
+//! - the permeability `P = D S` of a membrane whose face is under a gas at pressure p, the
+//!   concentration just inside that face being S·p (Henry's law), in mol/(m s Pa) when u is in
+//!   mol/m³ (and then also in Barrer);
+//! - the time lag `θ = L²/(6D)` of a membrane run (Daynes 1920; Barrer 1939; Crank 1975
+//!   §4.3.4), beside the time lag read off the steady-state asymptote of the data (where the
+//!   line through the late points crosses zero, [`crate::shortcuts::permeation`]) with the
+//!   standard uncertainty of that line's intercept and slope.
 //!
 //! The model quantities are functions of the parameters through a forward solve. So that the
 //! finite differences of the delta method see a smooth function, every perturbed solve replays
@@ -90,6 +97,18 @@ pub fn derive_all(analysis: &Analysis) -> Vec<Derived> {
                     value: value.map(|(v, u)| (v / scale, u / scale)),
                 });
             }
+            DerivedWhat::Permeability {
+                diffusivity,
+                solubility,
+            } => out.extend(permeability(
+                analysis,
+                &request.name,
+                *diffusivity,
+                *solubility,
+            )),
+            DerivedWhat::TimeLag { dataset } => {
+                out.extend(time_lags(analysis, &request.name, *dataset))
+            }
             DerivedWhat::FluxIn {
                 dataset,
                 end,
@@ -127,6 +146,186 @@ pub fn derive_all(analysis: &Analysis) -> Vec<Derived> {
         }
     }
     out
+}
+
+/// 1 Barrer = 1e-10 cm³(STP) cm / (cm² s cmHg) in mol/(m s Pa): cm³(STP) = 1e-6 m³ of ideal
+/// gas at 273.15 K and 101 325 Pa = 101325e-6/(R 273.15) mol (R = 8.314462618 J/(mol K),
+/// CODATA 2018, exact), cmHg = 1333.22387415 Pa; ≈ 3.3464e-16 (common practice, from memory
+/// as 3.35e-16).
+pub const BARRER_SI: f64 =
+    1e-10 * (101_325e-6 / (8.314_462_618 * 273.15)) * 1e-2 / (1e-4 * 1_333.223_874_15);
+
+/// True when a value-unit label reads mol/m³.
+fn is_mol_per_m3(label: &str) -> bool {
+    matches!(label.trim(), "mol/m3" | "mol/m^3" | "mol/m³" | "mol m-3")
+}
+
+/// P = D S with its standard uncertainty (D and S correlated through the fit).
+fn permeability(
+    analysis: &Analysis,
+    name: &str,
+    diffusivity: usize,
+    solubility: crate::experiment::Term,
+) -> Vec<Derived> {
+    let e = &analysis.experiment;
+    let value = analysis
+        .fit
+        .derived(|theta, _| theta[diffusivity] * solubility.value(theta), &[])
+        .map(|d| (d.value, d.std_uncertainty))
+        .map_err(|err| err.to_string());
+    let s_name = match solubility {
+        crate::experiment::Term::Parameter(i) => e.parameters[i].name.clone(),
+        crate::experiment::Term::Constant(v) => format!("{v:e} {}/Pa (given)", e.value_unit),
+    };
+    let description = format!(
+        "permeability P = {} × {s_name} (diffusivity × solubility coefficient)",
+        e.parameters[diffusivity].name
+    );
+    if is_mol_per_m3(&e.value_unit) {
+        vec![
+            Derived {
+                name: name.to_string(),
+                description: description.clone(),
+                unit: "mol/(m s Pa)".into(),
+                value: value.clone(),
+            },
+            Derived {
+                name: format!("{name}[Barrer]"),
+                description: format!(
+                    "{description}, in Barrer (1 Barrer = 1e-10 cm3(STP) cm/(cm2 s cmHg) = {BARRER_SI:.5e} mol/(m s Pa))"
+                ),
+                unit: "Barrer".into(),
+                value: value.map(|(v, u)| (v / BARRER_SI, u / BARRER_SI)),
+            },
+        ]
+    } else {
+        let s = flux_scale(e);
+        vec![Derived {
+            name: name.to_string(),
+            description,
+            unit: format!("{}·m2/(s·Pa)", e.value_unit),
+            value: value.map(|(v, u)| (v / s, u / s)),
+        }]
+    }
+}
+
+/// The time lag of a run: L²/(6D) at the fitted parameters, and from the steady-state
+/// asymptote of its data.
+fn time_lags(analysis: &Analysis, name: &str, dataset: usize) -> Vec<Derived> {
+    let e = &analysis.experiment;
+    let d = &e.datasets[dataset];
+    // θ(θ_params) from the run's model: one slab layer with constant D.
+    let lag = |theta: &[f64]| -> f64 {
+        let Ok(model) = d.model_for(theta) else {
+            return f64::NAN;
+        };
+        match model.geometry.layers.as_slice() {
+            [layer] => match layer.diffusivity {
+                crate::model::DiffusivityLaw::Constant { d0 } => {
+                    layer.thickness * layer.thickness / (6.0 * d0)
+                }
+                _ => f64::NAN,
+            },
+            _ => f64::NAN,
+        }
+    };
+    let fitted = analysis
+        .fit
+        .derived(|theta, _| lag(theta), &[])
+        .map_err(|err| err.to_string())
+        .and_then(|v| {
+            if v.value.is_finite() && v.std_uncertainty.is_finite() {
+                Ok((v.value, v.std_uncertainty))
+            } else {
+                Err("the run's sample is not one slab layer with constant D".to_string())
+            }
+        });
+    let thickness = d
+        .model_for(&analysis.fit.estimates)
+        .map(|m| m.geometry.layers.iter().map(|l| l.thickness).sum::<f64>());
+    // The data's own time lag, as the time-lag method reads it.
+    let mut rows: Vec<(f64, f64)> = d
+        .map
+        .iter()
+        .zip(&d.observed)
+        .enumerate()
+        .filter(|(i, _)| {
+            !d.detection_limit
+                .as_ref()
+                .is_some_and(|dl| dl.is_censored(*i))
+        })
+        .map(|(_, (&(_, k), &y))| (d.request.times[k], y))
+        .collect();
+    rows.sort_by(|a, b| a.0.total_cmp(&b.0));
+    let t: Vec<f64> = rows.iter().map(|r| r.0).collect();
+    let q: Vec<f64> = rows.iter().map(|r| r.1).collect();
+    let from_data = thickness
+        .map_err(|err| err.to_string())
+        .and_then(|l| {
+            crate::shortcuts::permeation::time_lag(&t, &q, l).map_err(|err| err.to_string())
+        })
+        .map(|est| {
+            // θ = −a/b: var θ = (var a + θ² var b + 2 θ cov(a, b)) / b² (first order).
+            let line = &est.line;
+            let theta = est.time_lag;
+            let u = match (line.intercept_se, line.slope_se, line.covariance) {
+                (Some(sa), Some(sb), Some(cab)) => {
+                    ((sa * sa + theta * theta * sb * sb + 2.0 * theta * cab).max(0.0)).sqrt()
+                        / line.slope.abs()
+                }
+                _ => f64::NAN,
+            };
+            (
+                theta,
+                u,
+                est.steady_state_reached,
+                est.first_used,
+                est.line.n,
+            )
+        });
+    let reference = match (&fitted, &from_data) {
+        (Ok((v, _)), _) => *v,
+        (Err(_), Ok((v, ..))) => *v,
+        _ => 1.0,
+    };
+    let (scale, unit) = time_unit(reference);
+    let data_description = match &from_data {
+        Ok((_, _, steady, first, n)) => format!(
+            "time lag of run '{}' from the steady-state asymptote of its data: the line through the last {n} points (from t = {} s{}) crosses zero there (Daynes 1920; Barrer 1939)",
+            d.name,
+            trim(t.get(*first).copied().unwrap_or(f64::NAN)),
+            if *steady {
+                ""
+            } else {
+                "; steady state not reached, so this is biased low"
+            }
+        ),
+        Err(_) => format!(
+            "time lag of run '{}' from the steady-state asymptote of its data",
+            d.name
+        ),
+    };
+    let data_name = match name.strip_prefix("time_lag") {
+        Some(rest) => format!("time_lag_from_data{rest}"),
+        None => format!("{name}_from_data"),
+    };
+    vec![
+        Derived {
+            name: name.to_string(),
+            description: format!(
+                "time lag L²/(6D) of run '{}' at the fitted D (Crank 1975, §4.3.4)",
+                d.name
+            ),
+            unit: unit.into(),
+            value: fitted.map(|(v, u)| (v / scale, u / scale)),
+        },
+        Derived {
+            name: data_name,
+            description: data_description,
+            unit: unit.into(),
+            value: from_data.map(|(v, u, ..)| (v / scale, u / scale)),
+        },
+    ]
 }
 
 fn trim(x: f64) -> String {

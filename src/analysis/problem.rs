@@ -3,7 +3,9 @@
 //!
 //! r_i = (y_i − f_i(θ)) / (σ_i s_d), with σ_i the point's standard uncertainty (1 when none is
 //! given) and s_d a per-dataset scale (1 unless the datasets' scatter is estimated, see
-//! [`super::run`]). The prediction f_i comes from a forward solve of the dataset's run.
+//! [`super::run`]). The prediction f_i comes from a forward solve of the dataset's run. A
+//! reading censored at a detection limit has the one-sided residual of
+//! [`crate::experiment::floor`] (zero while f_i is at or below the limit).
 //!
 //! Two things keep the residuals a smooth, cheap function of θ:
 //! * a run whose model is unchanged (only a scale or offset parameter moved) is not solved
@@ -132,7 +134,8 @@ impl ExperimentProblem {
         let s = self.scales[d];
         let base = self.offsets[d];
         for i in 0..dataset.len() {
-            out[base + i] = (dataset.observed[i] - prediction[i]) / (dataset.sigma[i] * s);
+            // (y − f)/(σ s), one-sided for a reading censored at a detection limit.
+            out[base + i] = dataset.residual(i, prediction[i], dataset.sigma[i] * s);
         }
     }
 }
@@ -265,10 +268,9 @@ impl ResidualProblem for ExperimentProblem {
                 let replayed = task.solver.solve_with(&task.model, &dataset.request, plan);
                 task.result = match replayed {
                     Ok(sol) => Ok(sol.clone()),
-                    Err(_) if task.schedule.is_some() => task
-                        .solver
-                        .solve(&task.model, &dataset.request)
-                        .cloned(),
+                    Err(_) if task.schedule.is_some() => {
+                        task.solver.solve(&task.model, &dataset.request).cloned()
+                    }
                     Err(e) => Err(e),
                 };
             });
@@ -293,7 +295,7 @@ impl ResidualProblem for ExperimentProblem {
                         let out = &mut outs[k];
                         let (s, off) = (self.scales[d], self.offsets[d]);
                         for i in 0..dataset.len() {
-                            out[off + i] = (dataset.observed[i] - pred[i]) / (dataset.sigma[i] * s);
+                            out[off + i] = dataset.residual(i, pred[i], dataset.sigma[i] * s);
                         }
                     }
                     Err(e) => status[k] = Err(e),

@@ -133,12 +133,19 @@ pub fn estimate_all(experiment: &Experiment, params: &[f64]) -> Vec<ShortcutEsti
     out
 }
 
-/// A dataset's points as (observable index, time, observed SI, position).
+/// A dataset's points as (observable index, time, observed SI), without readings censored at
+/// a detection limit (their value is only a bound, which no shortcut can use).
 fn points(d: &Dataset) -> Vec<(usize, f64, f64)> {
     d.map
         .iter()
         .zip(&d.observed)
-        .map(|(&(o, k), &y)| (o, d.request.times[k], y))
+        .enumerate()
+        .filter(|(i, _)| {
+            !d.detection_limit
+                .as_ref()
+                .is_some_and(|dl| dl.is_censored(*i))
+        })
+        .map(|(_, (&(o, k), &y))| (o, d.request.times[k], y))
         .collect()
 }
 

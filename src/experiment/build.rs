@@ -8,6 +8,7 @@
 use std::collections::{BTreeMap, HashMap};
 use std::path::{Path, PathBuf};
 
+use super::floor::{self, BelowLimit, DetectionLimit, PointVectors};
 use super::locate::SpanIndex;
 use super::quantity::{self, Kind};
 use super::schema::*;
@@ -138,6 +139,11 @@ enum SignalT {
         period: Num,
         phase: Num,
     },
+    /// A gas at pressure p over a face: u = S·p (Henry's law).
+    Gas {
+        pressure: Num,
+        solubility: Num,
+    },
 }
 
 impl SignalT {
@@ -156,6 +162,10 @@ impl SignalT {
                 period: period.get(p),
                 phase: phase.get(p),
             },
+            SignalT::Gas {
+                pressure,
+                solubility,
+            } => Signal::Constant(solubility.get(p) * pressure.get(p)),
         }
     }
 }
@@ -278,6 +288,8 @@ pub struct Dataset {
     pub value_unit: String,
     /// Warnings of the data loader.
     pub warnings: Vec<Warning>,
+    /// The instrument's detection limit and the readings at or below it (`detection_limit`).
+    pub detection_limit: Option<DetectionLimit>,
     template: ModelT,
     scale: Option<Num>,
     offset: Option<Num>,
@@ -395,6 +407,34 @@ impl Dataset {
         }
     }
 
+    /// The solubility coefficient S of a face of this run under a gas (`pressure` and
+    /// `solubility`), the left end first: a constant (SI, value unit per Pa) or a parameter.
+    pub fn gas_solubility(&self) -> Option<Term> {
+        let of_signal = |s: &SignalT| match s {
+            SignalT::Gas { solubility, .. } => Some(Term::from(*solubility)),
+            _ => None,
+        };
+        [&self.template.left, &self.template.right]
+            .into_iter()
+            .find_map(|e| match e {
+                EndT::Value(s) => of_signal(s),
+                EndT::Transfer { outside, .. } => of_signal(outside),
+                _ => None,
+            })
+    }
+
+    /// The weighted residual `(y_i − f_i)/w` of observed value `i`: one-sided for a reading
+    /// censored at the detection limit (zero while the prediction is at or below it; see
+    /// [`super::floor`]).
+    #[inline]
+    pub fn residual(&self, i: usize, predicted: f64, weight: f64) -> f64 {
+        let y = self.observed[i];
+        match &self.detection_limit {
+            Some(dl) => dl.residual(i, y, predicted, weight),
+            None => (y - predicted) / weight,
+        }
+    }
+
     /// The parameter that scales this run's model output (`scale = "M_inf"`), if any.
     pub fn scale_parameter(&self) -> Option<usize> {
         match self.scale {
@@ -424,6 +464,34 @@ impl Dataset {
         let mut out = Vec::with_capacity(self.map.len());
         self.predict_into(params, solution, &mut out)?;
         Ok(out)
+    }
+}
+
+/// A number of a model: a constant (SI) or a parameter.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Term {
+    /// A constant, SI.
+    Constant(f64),
+    /// A parameter: index into [`Experiment::parameters`].
+    Parameter(usize),
+}
+
+impl Term {
+    /// Its value for a full SI parameter vector (NaN for an index outside it).
+    pub fn value(self, params: &[f64]) -> f64 {
+        match self {
+            Term::Constant(v) => v,
+            Term::Parameter(i) => params.get(i).copied().unwrap_or(f64::NAN),
+        }
+    }
+}
+
+impl From<Num> for Term {
+    fn from(n: Num) -> Term {
+        match n {
+            Num::Const(v) => Term::Constant(v),
+            Num::Param(i) => Term::Parameter(i),
+        }
     }
 }
 
@@ -492,6 +560,18 @@ pub enum DerivedWhat {
         /// ρ (kg/m³) and c_p (J/(kg K)), each with its standard uncertainty, to report a
         /// temperature flux as a heat flux ρ c_p J in W/m².
         heat: Option<HeatInputs>,
+    },
+    /// Permeability P = D S, in value unit · m²/(s Pa) (mol/(m s Pa) for u in mol/m³).
+    Permeability {
+        /// Index of the diffusivity parameter D.
+        diffusivity: usize,
+        /// The solubility coefficient S, value unit per Pa.
+        solubility: Term,
+    },
+    /// Time lag θ = L²/(6D) of a run's membrane (a single-layer slab with constant D), s.
+    TimeLag {
+        /// Index of the dataset.
+        dataset: usize,
     },
 }
 
@@ -879,12 +959,21 @@ impl<'a> Builder<'a> {
         let has_periodic =
             t.mean.is_some() || t.amplitude.is_some() || t.period.is_some() || t.phase.is_some();
         let has_file = t.file.is_some();
-        if usize::from(has_rows) + usize::from(has_periodic) + usize::from(has_file) != 1 {
+        let has_gas = t.pressure.is_some() || t.solubility.is_some();
+        if usize::from(has_rows)
+            + usize::from(has_periodic)
+            + usize::from(has_file)
+            + usize::from(has_gas)
+            != 1
+        {
             return Err(self.err(
                 InputKind::BadValue,
                 key,
-                format!("'{key}' must give exactly one of: rows (a time table), mean/amplitude/period (a periodic signal), file (a data column)"),
+                format!("'{key}' must give exactly one of: rows (a time table), mean/amplitude/period (a periodic signal), file (a data column), pressure/solubility (a gas over the face)"),
             ));
+        }
+        if has_gas {
+            return self.gas(t, kind, key);
         }
         if let Some(rows) = &t.rows {
             let tu = t.time_unit.as_deref().ok_or_else(|| {
@@ -1012,6 +1101,43 @@ impl<'a> Builder<'a> {
         Ok(SignalT::Table(
             series.time.into_iter().zip(series.value).collect(),
         ))
+    }
+
+    /// `{ pressure, solubility }`: the value just inside a face under a gas, u = S·p.
+    fn gas(&mut self, t: &SignalTable, kind: Kind, key: &str) -> Result<SignalT> {
+        if kind != Kind::Value {
+            return Err(self.err(
+                InputKind::BadValue,
+                key,
+                format!("'{key}' is a {}, but pressure and solubility give a value (S·p); use them under 'value' or a transfer's 'outside'", kind.name()),
+            ));
+        }
+        let (Some(p), Some(sol)) = (&t.pressure, &t.solubility) else {
+            let missing = if t.pressure.is_none() {
+                "pressure"
+            } else {
+                "solubility"
+            };
+            return Err(self.err(
+                InputKind::MissingKey,
+                &format!("{key}.{missing}"),
+                "a gas over the face needs both 'pressure' (such as \"2 bar\") and 'solubility' (a number with unit such as \"0.5 mol/m3/bar\", or a parameter name)",
+            ));
+        };
+        Ok(SignalT::Gas {
+            pressure: self.num(
+                p,
+                Kind::Pressure,
+                Check::Positive,
+                &format!("{key}.pressure"),
+            )?,
+            solubility: self.num(
+                sol,
+                Kind::Solubility,
+                Check::Positive,
+                &format!("{key}.solubility"),
+            )?,
+        })
     }
 
     fn end(&mut self, e: &EndSpec, key: &str, centre: bool) -> Result<EndT> {
@@ -1324,6 +1450,8 @@ fn example(kind: Kind) -> &'static str {
         Kind::Flux => "1e-3 K m/s",
         Kind::Dimensionless | Kind::Measured => "1.0",
         Kind::Angle => "0 rad",
+        Kind::Pressure => "2 bar",
+        Kind::Solubility => "0.5 mol/m3/bar",
     }
 }
 
@@ -1683,43 +1811,7 @@ fn derived_requests(
         };
         let what = match spec.quantity {
             DerivedName::Conductivity => {
-                let diffusivity =
-                    match &spec.diffusivity {
-                        Some(pname) => match exp.parameters.iter().position(|p| &p.name == pname) {
-                            Some(i) => i,
-                            None => {
-                                let hint = suggest::did_you_mean(
-                                    pname,
-                                    exp.parameters.iter().map(|p| p.name.as_str()),
-                                );
-                                return Err(b.err(
-                                    InputKind::UndefinedParameter,
-                                    &k("diffusivity"),
-                                    format!("no parameter is named '{pname}'{hint}"),
-                                ));
-                            }
-                        },
-                        None => match exp
-                            .datasets
-                            .first()
-                            .and_then(Dataset::diffusivity_parameter)
-                        {
-                            Some(i) => i,
-                            None => return Err(b.err(
-                                InputKind::MissingKey,
-                                &k("diffusivity"),
-                                "name the fitted diffusivity parameter (`diffusivity = \"alpha\"`)",
-                            )),
-                        },
-                    };
-                let pname = exp.parameters[diffusivity].name.clone();
-                if exp.parameters[diffusivity].kind != Kind::Diffusivity {
-                    return Err(b.err(
-                        InputKind::BadValue,
-                        &k("diffusivity"),
-                        format!("'{pname}' is not a diffusivity"),
-                    ));
-                }
+                let diffusivity = diffusivity_of(b, spec, exp, &key)?;
                 needs("density", spec.density.is_some())?;
                 needs("heat_capacity", spec.heat_capacity.is_some())?;
                 let (density, heat_capacity) = heat_inputs(b, spec, &key)?;
@@ -1788,13 +1880,162 @@ fn derived_requests(
                     heat,
                 }
             }
+            DerivedName::Permeability => {
+                let diffusivity = diffusivity_of(b, spec, exp, &key)?;
+                let solubility = match &spec.solubility {
+                    Some(Scalar::Text(t)) if !quantity::looks_numeric(t) => {
+                        let t = t.trim();
+                        match exp.parameters.iter().position(|p| p.name == t) {
+                            Some(i) if exp.parameters[i].kind == Kind::Solubility => {
+                                Term::Parameter(i)
+                            }
+                            Some(_) => {
+                                return Err(b.err(
+                                    InputKind::BadValue,
+                                    &k("solubility"),
+                                    format!("'{t}' is not a solubility coefficient (it is not used as a face's 'solubility')"),
+                                ))
+                            }
+                            None => {
+                                let hint = suggest::did_you_mean(
+                                    t,
+                                    exp.parameters.iter().map(|p| p.name.as_str()),
+                                );
+                                return Err(b.err(
+                                    InputKind::UndefinedParameter,
+                                    &k("solubility"),
+                                    format!("no parameter is named '{t}'{hint}"),
+                                ));
+                            }
+                        }
+                    }
+                    Some(sc) => Term::Constant(
+                        b.literal(sc, Kind::Solubility, Check::Positive, &k("solubility"))?
+                            .0,
+                    ),
+                    None => match exp.datasets.iter().find_map(Dataset::gas_solubility) {
+                        Some(t) => t,
+                        None => {
+                            return Err(b.err(
+                                InputKind::MissingKey,
+                                &k("solubility"),
+                                "no face of the sample is under a gas (`value = { pressure = ..., solubility = ... }`): give `solubility` (a parameter name, or a number with unit such as \"0.5 mol/m3/bar\")",
+                            ))
+                        }
+                    },
+                };
+                DerivedWhat::Permeability {
+                    diffusivity,
+                    solubility,
+                }
+            }
+            DerivedName::TimeLag => DerivedWhat::TimeLag {
+                dataset: dataset(b)?,
+            },
         };
         out.push(DerivedRequest {
             name: name.clone(),
             what,
         });
     }
+    out.extend(automatic_derived(exp, &out));
     Ok(out)
+}
+
+/// Derived quantities every permeation experiment reports without being asked (unless the
+/// file asks for them itself): the permeability P = D S when a face is under a gas and D is a
+/// parameter, and the time lag θ = L²/(6D) of each run that measures the amount through a
+/// face (cumulative in or out) of a single-layer slab whose D is a parameter.
+fn automatic_derived(exp: &Experiment, asked: &[DerivedRequest]) -> Vec<DerivedRequest> {
+    let mut out = Vec::new();
+    let has = |f: fn(&DerivedWhat) -> bool| asked.iter().any(|r| f(&r.what));
+    let taken = |name: &str| asked.iter().any(|r| r.name == name);
+    if !has(|w| matches!(w, DerivedWhat::Permeability { .. })) && !taken("permeability") {
+        let found = exp.datasets.iter().find_map(|d| {
+            let s = d.gas_solubility()?;
+            let diffusivity = d.diffusivity_parameter()?;
+            Some((diffusivity, s))
+        });
+        if let Some((diffusivity, solubility)) = found {
+            out.push(DerivedRequest {
+                name: "permeability".into(),
+                what: DerivedWhat::Permeability {
+                    diffusivity,
+                    solubility,
+                },
+            });
+        }
+    }
+    if !has(|w| matches!(w, DerivedWhat::TimeLag { .. })) {
+        let through_face: Vec<usize> = (0..exp.datasets.len())
+            .filter(|&i| {
+                let d = &exp.datasets[i];
+                d.template.shape == Shape::Slab
+                    && d.template.layers.len() == 1
+                    && matches!(d.template.layers[0].law, LawT::Constant(Num::Param(_)))
+                    && matches!(
+                        d.request.observables.as_slice(),
+                        [Observable::CumulativeOut(_) | Observable::CumulativeIn(_)]
+                    )
+            })
+            .collect();
+        for &i in &through_face {
+            let name = if through_face.len() == 1 {
+                "time_lag".to_string()
+            } else {
+                format!("time_lag[{}]", exp.datasets[i].name)
+            };
+            if !taken(&name) {
+                out.push(DerivedRequest {
+                    name,
+                    what: DerivedWhat::TimeLag { dataset: i },
+                });
+            }
+        }
+    }
+    out
+}
+
+/// The diffusivity parameter a `[derived.NAME]` table names (`diffusivity`), or the first
+/// run's.
+fn diffusivity_of(b: &Builder, spec: &DerivedSpec, exp: &Experiment, key: &str) -> Result<usize> {
+    let k = |s: &str| format!("{key}.{s}");
+    let i = match &spec.diffusivity {
+        Some(pname) => match exp.parameters.iter().position(|p| &p.name == pname) {
+            Some(i) => i,
+            None => {
+                let hint =
+                    suggest::did_you_mean(pname, exp.parameters.iter().map(|p| p.name.as_str()));
+                return Err(b.err(
+                    InputKind::UndefinedParameter,
+                    &k("diffusivity"),
+                    format!("no parameter is named '{pname}'{hint}"),
+                ));
+            }
+        },
+        None => match exp
+            .datasets
+            .first()
+            .and_then(Dataset::diffusivity_parameter)
+        {
+            Some(i) => i,
+            None => {
+                return Err(b.err(
+                    InputKind::MissingKey,
+                    &k("diffusivity"),
+                    "name the fitted diffusivity parameter (`diffusivity = \"alpha\"`)",
+                ))
+            }
+        },
+    };
+    if exp.parameters[i].kind != Kind::Diffusivity {
+        return Err(b.err(
+            InputKind::BadValue,
+            &k("diffusivity"),
+            format!("'{}' is not a diffusivity", exp.parameters[i].name),
+        ));
+    }
+    Ok(i)
 }
 
 fn solver_options(s: &SolverSpec, index: &SpanIndex) -> Result<SolverOptions> {
@@ -2238,6 +2479,51 @@ fn dataset(
             request.observables = xs.into_iter().map(Observable::ValueAt).collect();
         }
     }
+    // Readings at or below the instrument's detection limit.
+    let detection_limit = match (&d.detection_limit, d.below_detection_limit) {
+        (None, None) => None,
+        (None, Some(_)) => {
+            return Err(b.err(
+                InputKind::MissingKey,
+                &k("detection_limit"),
+                "'below_detection_limit' needs 'detection_limit' (the instrument's limit, in the unit of the measured column)",
+            ))
+        }
+        (Some(s), treatment) => {
+            let limit = measured_number(b, d, s, Kind::Value, &k("detection_limit"))?;
+            let treatment = match treatment {
+                Some(BelowLimitName::Exclude) => BelowLimit::Exclude,
+                Some(BelowLimitName::Censor) | None => BelowLimit::Censor,
+            };
+            let dl = floor::apply(
+                limit,
+                treatment,
+                &request,
+                PointVectors {
+                    observed: &mut observed,
+                    sigma: &mut sigma_col,
+                    lines: &mut lines,
+                    positions: &mut positions,
+                    map: &mut map,
+                },
+            );
+            let all_below = match treatment {
+                BelowLimit::Exclude => observed.is_empty(),
+                BelowLimit::Censor => dl.points.len() == observed.len(),
+            };
+            if all_below {
+                return Err(b.err(
+                    InputKind::BadValue,
+                    &k("detection_limit"),
+                    format!(
+                        "every reading of dataset '{}' is at or below the detection limit {limit:e} (SI): check the limit and its unit",
+                        d.name
+                    ),
+                ));
+            }
+            Some(dl)
+        }
+    };
     // Positions must be inside the sample at the start values (checked when constant).
     // Uncertainty and weighting.
     let n = observed.len();
@@ -2368,9 +2654,48 @@ fn dataset(
         map,
         value_unit,
         warnings,
+        detection_limit,
         template,
         scale,
         offset,
         n_params: 0,
     })
+}
+
+/// A number of a dataset in the unit of its measured column (`detection_limit`): with a unit,
+/// or bare in the column's unit (`value_unit`, else the sample's). `kind` is `Value` for a
+/// level, `ValueDifference` for an uncertainty.
+fn measured_number(
+    b: &Builder<'_>,
+    d: &DatasetSpec,
+    s: &Scalar,
+    kind: Kind,
+    key: &str,
+) -> Result<f64> {
+    let kind =
+        if matches!(d.observe, ObserveName::Value | ObserveName::Mean) && d.value_unit.is_none() {
+            kind
+        } else {
+            Kind::Measured
+        };
+    let (number, unit) = match s {
+        Scalar::Number(x) => (*x, d.value_unit.clone()),
+        Scalar::Text(t) => match quantity::split_number(t) {
+            Some(w) => (w.number, w.unit.or_else(|| d.value_unit.clone())),
+            None => {
+                return Err(b.err(
+                    InputKind::BadValue,
+                    key,
+                    format!("'{t}' is not a number with unit"),
+                ))
+            }
+        },
+    };
+    let conv = quantity::conversion(kind, unit.as_deref(), &b.value_unit)
+        .map_err(|m| b.err(InputKind::UnknownUnit, key, m))?;
+    let v = conv.to_si(number);
+    if !v.is_finite() {
+        return Err(b.err(InputKind::NotFinite, key, format!("'{key}' must be finite")));
+    }
+    Ok(v)
 }

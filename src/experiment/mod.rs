@@ -15,6 +15,7 @@
 //! References: TOML v1.0.0 specification (toml.io) — from memory; the `toml` crate parses.
 
 pub mod build;
+pub mod floor;
 mod locate;
 pub mod quantity;
 pub mod schema;
@@ -23,8 +24,9 @@ pub mod suggest;
 use std::path::Path;
 
 pub use build::{
-    Dataset, DerivedRequest, DerivedWhat, Experiment, FitOptions, Parameter, Weighting,
+    Dataset, DerivedRequest, DerivedWhat, Experiment, FitOptions, Parameter, Term, Weighting,
 };
+pub use floor::{BelowLimit, DetectionLimit};
 pub use quantity::Kind;
 
 use crate::error::{Error, InputKind, Location, Result};

@@ -12,6 +12,10 @@
 //! The sample's value unit u is a temperature unit (converted to K, with the 273.15 K offset for
 //! values and without it for differences) or any other label (a concentration such as `mol/m3`
 //! or `wt%`), which is then used as written (scale 1).
+//!
+//! Gas permeation adds pressures ([`PRESSURE_UNITS`]) and solubility coefficients
+//! `<value unit>/<pressure unit>` (`mol/m3/bar`): the concentration just inside a face exposed to
+//! a gas at pressure p is S·p (Henry's law).
 
 use crate::units::{Quantity, Unit};
 
@@ -38,6 +42,10 @@ pub enum Kind {
     Dimensionless,
     /// An angle, rad (`rad` or `deg`).
     Angle,
+    /// A gas pressure, Pa.
+    Pressure,
+    /// A solubility coefficient S (value of u per pressure), value unit / Pa.
+    Solubility,
     /// A measured quantity of a dataset (mass, amount, value, signal): any unit of
     /// [`crate::units`], a composite of the above, or an unknown label kept at scale 1.
     Measured,
@@ -57,6 +65,8 @@ impl Kind {
             Kind::Flux => "flux",
             Kind::Dimensionless => "plain number",
             Kind::Angle => "angle",
+            Kind::Pressure => "pressure",
+            Kind::Solubility => "solubility coefficient (value per pressure)",
             Kind::Measured => "measured quantity",
         }
     }
@@ -73,6 +83,8 @@ impl Kind {
             Kind::Flux => format!("{} m/s", value_unit.label()),
             Kind::Dimensionless => String::new(),
             Kind::Angle => "rad".into(),
+            Kind::Pressure => "Pa".into(),
+            Kind::Solubility => format!("{}/Pa", value_unit.label()),
             Kind::Measured => String::new(),
         }
     }
@@ -169,7 +181,10 @@ pub fn conversion(kind: Kind, unit: Option<&str>, value_unit: &Unit) -> Result<C
                 Conversion::of(value_unit.label(), value_unit.scale(), value_unit.offset())
             }
             Kind::ValueDifference => Conversion::of(value_unit.label(), value_unit.scale(), 0.0),
-            Kind::Flux => Conversion::of(&kind.bare_unit(value_unit), value_unit.scale(), 0.0),
+            Kind::Flux | Kind::Solubility => {
+                Conversion::of(&kind.bare_unit(value_unit), value_unit.scale(), 0.0)
+            }
+            Kind::Pressure => Conversion::of("Pa", 1.0, 0.0),
             _ => Conversion::of("", 1.0, 0.0),
         });
     };
@@ -239,6 +254,21 @@ pub fn conversion(kind: Kind, unit: Option<&str>, value_unit: &Unit) -> Result<C
             let cs = conversion(Kind::Speed, Some(speed), value_unit)?;
             Ok(Conversion::of(text, cv.scale * cs.scale, 0.0))
         }
+        Kind::Pressure => pressure_scale(text).map(|s| Conversion::of(text, s, 0.0)),
+        Kind::Solubility => {
+            // "<value unit>/<pressure unit>": the last slash separates the pressure unit, so
+            // a value unit with a slash of its own (mol/m3) stays whole.
+            let Some((v, p)) = text.rsplit_once('/') else {
+                return Err(format!(
+                    "a solubility coefficient is written '<value unit>/<pressure unit>', such as \
+                     '{}/bar'; found '{text}'",
+                    value_unit.label()
+                ));
+            };
+            let cv = conversion(Kind::ValueDifference, Some(v.trim()), value_unit)?;
+            let ps = pressure_scale(p.trim())?;
+            Ok(Conversion::of(text, cv.scale / ps, 0.0))
+        }
         Kind::Measured => {
             if let Ok(u) = Unit::parse(text) {
                 return Ok(Conversion::of(text, u.scale(), u.offset()));
@@ -251,6 +281,37 @@ pub fn conversion(kind: Kind, unit: Option<&str>, value_unit: &Unit) -> Result<C
             Ok(Conversion::of(text, 1.0, 0.0))
         }
     }
+}
+
+/// Pressure units and their size in Pa. Torr = 101325/760 Pa, mmHg (conventional) =
+/// 133.322387415 Pa, psi = 6894.757293168 Pa (NIST SP 811, 2008, Appendix B.8 — from memory).
+pub const PRESSURE_UNITS: &[(&str, f64)] = &[
+    ("Pa", 1.0),
+    ("kPa", 1e3),
+    ("MPa", 1e6),
+    ("bar", 1e5),
+    ("mbar", 1e2),
+    ("atm", 101_325.0),
+    ("Torr", 101_325.0 / 760.0),
+    ("mmHg", 133.322_387_415),
+    ("cmHg", 1_333.223_874_15),
+    ("psi", 6_894.757_293_168),
+];
+
+/// Pa per unit of a pressure unit.
+fn pressure_scale(text: &str) -> Result<f64, String> {
+    PRESSURE_UNITS
+        .iter()
+        .find(|(u, _)| *u == text.trim())
+        .map(|(_, s)| *s)
+        .ok_or_else(|| {
+            let names: Vec<&str> = PRESSURE_UNITS.iter().map(|(u, _)| *u).collect();
+            format!(
+                "unknown pressure unit '{}'; use one of {}",
+                text.trim(),
+                names.join(", ")
+            )
+        })
 }
 
 /// Split `"<num>/<time>"` and apply `numerator` to the part before the slash.
@@ -302,5 +363,26 @@ mod tests {
         let arb = value_unit("mol/m3");
         assert!(conversion(Kind::Value, Some("mol/m3"), &arb).is_ok());
         assert!(conversion(Kind::Value, Some("kg/m3"), &arb).is_err());
+    }
+
+    #[test]
+    fn converts_pressures_and_solubilities() {
+        let arb = value_unit("mol/m3");
+        // 1 bar = 1e5 Pa; 1 atm = 101325 Pa (both exact by definition, BIPM SI Brochure 9th
+        // ed. Table 8 and CGPM 1954 — from memory).
+        let c = conversion(Kind::Pressure, Some("bar"), &arb).unwrap();
+        assert_eq!(c.to_si(2.0), 2e5);
+        let c = conversion(Kind::Pressure, Some("atm"), &arb).unwrap();
+        assert_eq!(c.to_si(1.0), 101_325.0);
+        let c = conversion(Kind::Solubility, Some("mol/m3/bar"), &arb).unwrap();
+        assert!((c.to_si(50.0) - 5e-4).abs() < 1e-18);
+        let e = conversion(Kind::Solubility, Some("mol/m3/furlong"), &arb).unwrap_err();
+        assert!(
+            e.contains("unknown pressure unit 'furlong'") && e.contains("bar"),
+            "{e}"
+        );
+        let e = conversion(Kind::Solubility, Some("kg/m3/bar"), &arb).unwrap_err();
+        assert!(e.contains("differs from the sample's value unit"), "{e}");
+        assert!(conversion(Kind::Pressure, Some("m"), &arb).is_err());
     }
 }

@@ -83,6 +83,10 @@ pub struct SignalTable {
     pub value_column: Option<String>,
     /// Time of the step on the file's clock (rows before it are dropped).
     pub time_origin: Option<Scalar>,
+    /// Gas at a face: its pressure p (the value is S·p, Henry's law).
+    pub pressure: Option<Scalar>,
+    /// Gas at a face: the solubility coefficient S (value per pressure).
+    pub solubility: Option<Scalar>,
 }
 
 struct SignalVisitor;
@@ -228,6 +232,10 @@ pub enum DerivedName {
     EquilibriumTime,
     /// Flux in through an end at given times.
     FluxIn,
+    /// Permeability P = D S of a membrane whose face sees a gas pressure.
+    Permeability,
+    /// Time lag θ = L²/(6D) of a membrane.
+    TimeLag,
 }
 
 /// `[derived.NAME]`.
@@ -254,6 +262,9 @@ pub struct DerivedSpec {
     pub end: Option<EndWhich>,
     /// Flux: the times, with unit.
     pub times: Option<Vec<Scalar>>,
+    /// Permeability: the solubility coefficient, a parameter name or a number with unit
+    /// (default: that of the gas face of the run).
+    pub solubility: Option<Scalar>,
 }
 
 /// An end by name.
@@ -532,6 +543,20 @@ pub struct DatasetSpec {
     pub initial: Option<InitialSpec>,
     /// Start values of per-dataset parameters for this run.
     pub starts: Option<BTreeMap<String, Scalar>>,
+    /// Detection limit of the instrument, in the measured column's unit.
+    pub detection_limit: Option<Scalar>,
+    /// What to do with readings at or below the detection limit.
+    pub below_detection_limit: Option<BelowLimitName>,
+}
+
+/// Readings at or below a dataset's detection limit.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum BelowLimitName {
+    /// Leave them out of the fit.
+    Exclude,
+    /// Keep them as censored readings: the model only has to stay at or below the limit there.
+    Censor,
 }
 
 /// `[solver]`.

@@ -225,6 +225,220 @@ pub struct DatasetSummary {
     pub durbin_watson: Option<f64>,
     /// Verdict in words.
     pub verdict: String,
+    /// The instrument's detection limit and the readings at or below it, when the experiment
+    /// file gives one (`detection_limit`).
+    pub detection_limit: Option<DetectionLimitRow>,
+}
+
+/// A dataset's detection limit and what was done with the readings at or below it.
+#[derive(Debug, Clone, Serialize)]
+pub struct DetectionLimitRow {
+    /// The limit, in the dataset's `unit`.
+    pub limit: Option<f64>,
+    /// `"exclude"` (left out of the fit) or `"censor"` (kept; the model only has to stay at or
+    /// below the limit there).
+    pub treatment: &'static str,
+    /// Readings at or below the limit.
+    pub count: usize,
+    /// Censored readings where the fitted model lies above the limit (the only ones with a
+    /// non-zero residual); null for `exclude`.
+    pub model_above_limit: Option<usize>,
+    /// The readings at or below the limit, in data order.
+    pub points: Vec<BelowLimitRow>,
+    /// The same in one sentence, as the terminal summary and report.html show it.
+    pub summary: String,
+}
+
+/// One reading at or below a detection limit.
+#[derive(Debug, Clone, Serialize)]
+pub struct BelowLimitRow {
+    /// Line of the data file, from 1.
+    pub line: u64,
+    /// Time of the reading, s.
+    pub time_s: Option<f64>,
+    /// Position (depth) of the reading, m; null when the observable has no position.
+    pub position_m: Option<f64>,
+    /// The reading as found in the data file, in the dataset's `unit`.
+    pub reading: Option<f64>,
+}
+
+/// Readable length: (metres per unit, label).
+fn length_unit(max: f64) -> (f64, &'static str) {
+    if max >= 1e-2 {
+        (1e-3, "mm")
+    } else if max >= 1e-6 {
+        (1e-6, "um")
+    } else {
+        (1e-9, "nm")
+    }
+}
+
+/// Readable time: (seconds per unit, label).
+fn time_unit(t: f64) -> (f64, &'static str) {
+    if t >= 2.0 * 86400.0 {
+        (86400.0, "d")
+    } else if t >= 7200.0 {
+        (3600.0, "h")
+    } else if t >= 120.0 {
+        (60.0, "min")
+    } else {
+        (1.0, "s")
+    }
+}
+
+fn short(x: f64) -> String {
+    let s = format!("{x:.4}");
+    s.trim_end_matches('0').trim_end_matches('.').to_string()
+}
+
+/// A warning for each dataset whose σ is estimated from the scatter and which holds censored
+/// readings under the fitted model: those count as points with zero residual, so the scatter
+/// estimate s = √(RSS/(n − p)) and the intervals come out too small by about
+/// √((n − n_0 − p)/(n − p)), n_0 the zero residuals.
+fn censoring_warnings(analysis: &Analysis) -> Vec<String> {
+    use crate::experiment::Weighting as W;
+    let e = &analysis.experiment;
+    let n = e.point_count() as f64;
+    let p = analysis.fit.free_names.len() as f64;
+    let mut out = Vec::new();
+    for (d, ds) in e.datasets.iter().enumerate() {
+        let Some(dl) = &ds.detection_limit else {
+            continue;
+        };
+        if ds.weighting == W::Absolute {
+            continue;
+        }
+        let pred = &analysis.predictions[d];
+        let zero = (0..ds.len())
+            .filter(|&i| dl.is_censored(i) && pred.get(i).is_some_and(|&f| f <= dl.limit))
+            .count();
+        if zero == 0 || n - zero as f64 - p <= 0.0 {
+            continue;
+        }
+        let factor = ((n - p) / (n - zero as f64 - p)).sqrt();
+        out.push(format!(
+            "{}: {zero} censored reading(s) lie under the fitted model and count as points with zero residual; with σ estimated from the scatter ({} weighting) the standard errors and intervals are too narrow (they should be about {:.0} % wider). Give absolute σ (sigma or sigma_column) with censoring, or exclude the readings instead",
+            ds.name,
+            match ds.weighting {
+                W::Relative(_) => "relative",
+                _ => "scaled",
+            },
+            (factor - 1.0) * 100.0
+        ));
+    }
+    out
+}
+
+/// Numbers in order, with every run of three or more equally spaced ones written as `a–b`:
+/// `700, 725, 750, 775, 850` → `700–775, 850`.
+fn ranges(xs: &[f64]) -> String {
+    let same_step = |a: f64, b: f64| (a - b).abs() <= 1e-9 * a.abs().max(b.abs());
+    let n = xs.len();
+    let mut parts = Vec::new();
+    let mut i = 0;
+    while i < n {
+        // The last index j of an equally spaced run starting at i.
+        let mut j = i;
+        if i + 1 < n && xs[i + 1] > xs[i] {
+            let step = xs[i + 1] - xs[i];
+            j = i + 1;
+            while j + 1 < n && same_step(xs[j + 1] - xs[j], step) {
+                j += 1;
+            }
+        }
+        if j - i + 1 >= 3 {
+            parts.push(format!("{}–{}", short(xs[i]), short(xs[j])));
+            i = j + 1;
+        } else {
+            parts.push(short(xs[i]));
+            i += 1;
+        }
+    }
+    parts.join(", ")
+}
+
+/// The report row of a dataset's detection limit; `predicted` are the fitted predictions.
+fn detection_limit_row(
+    ds: &crate::experiment::Dataset,
+    predicted: &[f64],
+) -> Option<DetectionLimitRow> {
+    use crate::experiment::BelowLimit;
+    let dl = ds.detection_limit.as_ref()?;
+    let unit = value_unit(&ds.value_unit);
+    let limit = finite(unit.from_si(dl.limit));
+    let model_above_limit = match dl.treatment {
+        BelowLimit::Exclude => None,
+        BelowLimit::Censor => Some(
+            (0..ds.len())
+                .filter(|&i| dl.is_censored(i) && predicted.get(i).is_some_and(|&f| f > dl.limit))
+                .count(),
+        ),
+    };
+    let points: Vec<BelowLimitRow> = dl
+        .points
+        .iter()
+        .map(|p| BelowLimitRow {
+            line: p.line,
+            time_s: finite(p.time),
+            position_m: p.position.and_then(finite),
+            reading: finite(unit.from_si(p.reading)),
+        })
+        .collect();
+    // "at 1 h: 600, 700 um; at 4 h: 900 um" (depths by time), or the times when there are no
+    // positions.
+    let listing = if dl.points.is_empty() {
+        String::new()
+    } else if dl.points.iter().all(|p| p.position.is_some()) {
+        let max = dl
+            .points
+            .iter()
+            .filter_map(|p| p.position)
+            .fold(0.0, f64::max);
+        let (ls, ll) = length_unit(max);
+        let mut groups: Vec<(f64, Vec<f64>)> = Vec::new();
+        for p in &dl.points {
+            let x = p.position.unwrap_or(f64::NAN);
+            match groups.iter_mut().find(|g| g.0 == p.time) {
+                Some(g) => g.1.push(x),
+                None => groups.push((p.time, vec![x])),
+            }
+        }
+        let parts: Vec<String> = groups
+            .iter()
+            .map(|(t, xs)| {
+                let (ts, tl) = time_unit(*t);
+                let xs: Vec<f64> = xs.iter().map(|x| x / ls).collect();
+                format!("at {} {tl}: {} {ll}", short(t / ts), ranges(&xs))
+            })
+            .collect();
+        format!(" (depths {})", parts.join("; "))
+    } else {
+        let max = dl.points.iter().map(|p| p.time).fold(0.0, f64::max);
+        let (ts, tl) = time_unit(max);
+        let ts_list: Vec<String> = dl.points.iter().map(|p| short(p.time / ts)).collect();
+        format!(" (times {} {tl})", ts_list.join(", "))
+    };
+    let what = match (dl.treatment, model_above_limit) {
+        (BelowLimit::Exclude, _) => "excluded from the fit".to_string(),
+        (BelowLimit::Censor, Some(m)) => format!(
+            "censored: the model only has to stay at or below the limit there (the fitted model lies above it at {m} of them)"
+        ),
+        (BelowLimit::Censor, None) => "censored".to_string(),
+    };
+    let summary = format!(
+        "{} reading(s) at or below the detection limit {} {}{listing}: {what}",
+        dl.points.len(),
+        limit.map_or("?".into(), short),
+        ds.value_unit,
+    );
+    Some(DetectionLimitRow {
+        limit,
+        treatment: dl.treatment.word(),
+        count: dl.points.len(),
+        model_above_limit,
+        points,
+        summary,
+    })
 }
 
 /// Convert a user-unit value through the parameter's reporting unit.
@@ -337,11 +551,11 @@ impl Report {
             .map(|(d, ds)| {
                 let pred = &analysis.predictions[d];
                 let n = ds.len().max(1) as f64;
-                let rms = (ds
-                    .observed
+                // Unweighted residuals, one-sided at censored readings as in the fit.
+                let rms = (pred
                     .iter()
-                    .zip(pred)
-                    .map(|(y, p)| (y - p).powi(2))
+                    .enumerate()
+                    .map(|(i, p)| ds.residual(i, *p, 1.0).powi(2))
                     .sum::<f64>()
                     / n)
                     .sqrt();
@@ -369,6 +583,7 @@ impl Report {
                                 .to_string()
                         },
                     ),
+                    detection_limit: detection_limit_row(ds, pred),
                 }
             })
             .collect();
@@ -378,6 +593,7 @@ impl Report {
                 warnings.push(format!("{}: {}", w.location, w.message));
             }
         }
+        warnings.extend(censoring_warnings(analysis));
         if !f.stop.converged() {
             warnings.insert(0, format!("The fit did not converge: {}", f.stop_message));
         }
@@ -566,5 +782,19 @@ impl ComparisonReport {
             models: rows,
             verdict: comparison.verdict.clone(),
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::ranges;
+
+    #[test]
+    fn runs_of_equal_steps_become_ranges() {
+        assert_eq!(ranges(&[700.0, 725.0, 750.0, 775.0, 850.0]), "700–775, 850");
+        assert_eq!(ranges(&[1.0, 2.0]), "1, 2");
+        assert_eq!(ranges(&[1.0, 2.0, 3.0, 5.0, 7.0, 9.0]), "1–3, 5–9");
+        assert_eq!(ranges(&[]), "");
+        assert_eq!(ranges(&[4.0]), "4");
     }
 }

@@ -7,7 +7,9 @@
 //! in the experiment file), `observed [U]`, `predicted [U]`, `residual [U]` (observed −
 //! predicted, a difference: no temperature offset), in the value unit of the data file, and
 //! `standardised residual` (weighted residual divided by the residual standard deviation s, or
-//! by 1 when σ are absolute and trusted). When the datasets' value units differ, the three
+//! by 1 when σ are absolute and trusted). A reading censored at a detection limit shows the
+//! limit as `observed` and the one-sided residual the fit used (0 while the model is at or
+//! below the limit). When the datasets' value units differ, the three
 //! value columns carry no unit in the header and a last column `unit` names each row's.
 //! A unit the file does not state (or that cannot be read) falls back to SI: s, m.
 
@@ -172,7 +174,8 @@ pub fn write_fitted(analysis: &Analysis, out: &mut dyn Write) -> io::Result<()> 
                     .unwrap_or_default(),
                 vu.from_si(y),
                 vu.from_si(p),
-                vu.diff_from_si(y - p),
+                // One-sided at a censored reading, as in the fit.
+                vu.diff_from_si(ds.residual(i, p, 1.0)),
                 r / s
             )?;
             if !same_value_unit {

@@ -163,6 +163,16 @@ pub fn render(
         );
     }
     h.push_str("</table>\n");
+    for d in &report.datasets {
+        if let Some(dl) = &d.detection_limit {
+            let _ = writeln!(
+                h,
+                "<p class=\"floor\"><b>Detection limit, dataset {}:</b> {}</p>",
+                escape(&d.name),
+                escape(&dl.summary)
+            );
+        }
+    }
 
     if !report.warnings.is_empty() {
         h.push_str("<h2>Warnings</h2>\n");

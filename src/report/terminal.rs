@@ -196,6 +196,9 @@ pub fn write_summary(report: &Report, out: &mut dyn Write) -> io::Result<()> {
             "dataset {} ({} points): {}",
             d.name, d.n_points, d.verdict
         )?;
+        if let Some(dl) = &d.detection_limit {
+            writeln!(out, "  {}", dl.summary)?;
+        }
     }
     if let Some(c) = &report.comparison {
         writeln!(out)?;

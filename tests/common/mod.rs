@@ -38,3 +38,17 @@ pub fn robin_fraction(t_reduced: f64, bi: f64, roots: &[f64]) -> f64 {
         .map(|b| 2.0 * bi * bi * (-b * b * t_reduced).exp() / (b * b * (b * b + bi * bi + bi)))
         .sum::<f64>()
 }
+
+/// Crank 1975 eq. 4.24a: amount through the downstream face of a membrane, initially empty,
+/// upstream face held at C1 and downstream face at 0 from t = 0, per unit area, in units of
+/// L C1: Q_t/(L C1) = τ − 1/6 − (2/π²) Σ_{n≥1} (−1)ⁿ/n² exp(−n² π² τ), τ = D t/L².
+#[allow(dead_code)]
+pub fn permeation_amount(tau: f64) -> f64 {
+    let mut s = 0.0;
+    for n in 1..400 {
+        let nf = n as f64;
+        let sign = if n % 2 == 0 { 1.0 } else { -1.0 };
+        s += sign / (nf * nf) * (-(nf * nf) * PI * PI * tau).exp();
+    }
+    tau - 1.0 / 6.0 - 2.0 / (PI * PI) * s
+}

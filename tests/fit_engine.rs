@@ -562,6 +562,70 @@ fn parameter_pushed_against_a_bound_is_flagged() {
     )));
 }
 
+/// A log-scale parameter whose bounds span many decades is "at its bound" only when it is
+/// there in ratio: D ≈ 1e-12 with bounds [1e-20, 1e-5] is fifteen decades above the lower
+/// bound, although 1e-12 − 1e-20 is below 1e-6 of the linear range (regression: that linear
+/// test once flagged such a fit). A rate pushed to its upper bound on the log scale is still
+/// flagged (common practice: an estimate on a bound has no meaningful uncertainty).
+#[test]
+fn log_parameter_is_judged_at_a_bound_on_the_log_scale() {
+    let (t, y) = uptake_data(30, 2.0, 5.0, 0.01, 3);
+    // k = 1/τ in 1/s, fitted on the log scale; the truth 0.2 lies inside very wide bounds
+    // (0.2 − 1e-20 is below 1e-6 of the linear range 1e6).
+    let (t2, y2) = (t.clone(), y.clone());
+    let rate_problem = move |p: &[f64], out: &mut [f64]| -> Result<()> {
+        for i in 0..t2.len() {
+            out[i] = y2[i] - p[0] * (1.0 - (-t2[i] * p[1]).exp());
+        }
+        Ok(())
+    };
+    let specs = vec![
+        ParamSpec::new("A", "kg", 1.0),
+        ParamSpec::new("k", "1/s", 0.1)
+            .log()
+            .bounds(Some(1e-20), Some(1e6)),
+    ];
+    let res = fit(
+        FnProblem::new(30, rate_problem.clone()),
+        specs,
+        &FitOptions::default(),
+    )
+    .unwrap();
+    assert!(
+        (res.estimates[1] - 0.2).abs() < 0.02,
+        "{}",
+        res.estimates[1]
+    );
+    assert!(
+        !res.warnings
+            .iter()
+            .any(|w| matches!(w.kind, WarningKind::AtBound { .. })),
+        "{:?}",
+        res.warnings
+    );
+    // The same rate held below 0.05 on the log scale ends on that bound and is flagged.
+    let specs = vec![
+        ParamSpec::new("A", "kg", 1.0),
+        ParamSpec::new("k", "1/s", 0.01)
+            .log()
+            .bounds(Some(1e-20), Some(0.05)),
+    ];
+    let res = fit(
+        FnProblem::new(30, rate_problem),
+        specs,
+        &FitOptions::default(),
+    )
+    .unwrap();
+    assert!(
+        res.warnings.iter().any(|w| matches!(
+            &w.kind,
+            WarningKind::AtBound { parameter, bound } if parameter == "k" && *bound == 0.05
+        )),
+        "{:?}",
+        res.warnings
+    );
+}
+
 #[test]
 fn multi_start_escapes_a_local_minimum() {
     // y = sin(ω t): the sum of squares in ω has many local minima; from ω = 0.5 rad/s plain

@@ -22,8 +22,12 @@ use crate::solver::{Solution, Solver, StepPlan};
 use rayon::prelude::*;
 use std::sync::Arc;
 
-/// Relative parameter change below which a run replays its last step sequence.
-pub const REPLAY_RADIUS: f64 = 1e-3;
+/// Relative parameter change below which a run replays its last step sequence. Within 5 %
+/// the error-controlled sequence of the base point keeps its accuracy (the local errors change
+/// in proportion), and every point of a converging search is then a smooth function of the
+/// parameters; the engine refreshes the base at the optimum (see
+/// [`crate::fit::ResidualProblem::refresh`]).
+pub const REPLAY_RADIUS: f64 = 0.05;
 
 /// Per-run solver state.
 #[derive(Debug, Clone)]
@@ -196,6 +200,13 @@ struct Task<'a> {
 impl ResidualProblem for ExperimentProblem {
     fn n_residuals(&self) -> usize {
         self.n
+    }
+
+    fn refresh(&mut self) {
+        for run in &mut self.runs {
+            run.base = None;
+            run.last_model = None;
+        }
     }
 
     fn residuals(&mut self, params: &[f64], out: &mut [f64]) -> Result<()> {

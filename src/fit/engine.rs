@@ -305,8 +305,10 @@ pub(crate) fn search<P: ResidualProblem>(
             lm.stop.sentence()
         )));
     }
-    // polish with central differences; near the optimum Gauss–Newton steps are good, so
-    // the damping starts small
+    // Polish with central differences; near the optimum Gauss–Newton steps are good, so
+    // the damping starts small. The problem first forgets its replay state, so that the model
+    // near the optimum is the one computed afresh there.
+    ev.refresh();
     let polish_opts = LmOptions {
         difference: Difference::Central,
         initial_damping: 1e-3,

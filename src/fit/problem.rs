@@ -47,6 +47,13 @@ pub trait ResidualProblem: Clone + Send {
             .collect()
     }
 
+    /// Forget any state that makes an evaluation depend on earlier ones (for a model solved
+    /// numerically: the step sequence it replays near an earlier point), so that the next
+    /// evaluation is computed afresh and becomes the reference for the ones near it. The engine
+    /// calls this once the search has found the optimum, before the final polish and the
+    /// covariance. Default: nothing to forget.
+    fn refresh(&mut self) {}
+
     /// The datasets as named index ranges into the residual vector, for the per-dataset
     /// residual checks and bootstrap resampling. Default: one dataset, `all`.
     fn datasets(&self) -> Vec<DatasetRange> {
@@ -176,6 +183,10 @@ impl<P: ResidualProblem> ResidualProblem for ShiftedProblem<P> {
         Ok(())
     }
 
+    fn refresh(&mut self) {
+        self.inner.refresh();
+    }
+
     fn residuals_batch(
         &mut self,
         base: &[f64],
@@ -277,6 +288,13 @@ impl<P: ResidualProblem> Evaluator<P> {
             self.failures += 1;
         }
         ok
+    }
+
+    /// Forget the problem's replay state and the cached Jacobian (see
+    /// [`ResidualProblem::refresh`]).
+    pub fn refresh(&mut self) {
+        self.problem.refresh();
+        self.jacobian_cache = None;
     }
 
     /// Residuals at several internal points `us` near `base` (see

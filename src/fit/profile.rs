@@ -1,16 +1,21 @@
 //! Profile-likelihood confidence intervals, one free parameter at a time.
 //!
-//! For parameter `j`, the profile `RSS_j(v) = min over the others of RSS(θ | u_j = v)` is
-//! followed outwards from the optimum on a grid of steps `h = step · SE_u` in the internal
-//! coordinate (each point re-optimised by Levenberg–Marquardt from the previous one) until it
-//! crosses the threshold
+//! For parameter `j`, the profile `RSS_j(v) = min over the others of RSS(θ | u_j = v)` (each
+//! point re-optimised by Levenberg–Marquardt) is compared with the threshold
 //! - `RSS_min · (1 + F(1, n − p; level)/(n − p))` (σ unknown or rescaled; the F-based
 //!   likelihood-ratio region), or
 //! - `RSS_min + χ²(1; level)` (residuals divided by absolute σ, no rescaling).
 //!
-//! The crossing is then located by the Illinois variant of regula falsi on
-//! `RSS_j(v) − threshold`. The interval is asymmetric in general; a side that does not cross
-//! within `max_steps` steps (or where the model stops evaluating) is reported unbounded.
+//! The search works on the signed root `ρ(v) = √((RSS_j(v) − RSS_min)/s²)`, which is exactly
+//! linear in `v` for a model linear in its parameters and nearly so for most others, so its
+//! crossing of `z* = √(threshold statistic)` is found in few re-optimisations: the first
+//! point is the Jacobian's prediction `v̂ ± z*·SE_u`; while `ρ` stays below `z*` the next point
+//! is extrapolated along the line through the optimum (at most four times as far, never more
+//! than `max_steps · step` standard errors out); once the crossing is bracketed, the Illinois
+//! variant of regula falsi on `ρ(v) − z*` locates it to `tolerance` standard errors. The other
+//! parameters start each re-optimisation from the nearest computed point, moved along the
+//! regression of the others on `u_j` that the covariance matrix gives. A side that does not
+//! cross within the range (or where the model stops evaluating) is reported unbounded.
 //! Parameters are profiled in parallel, one copy of the problem per parameter.
 //!
 //! Besides the ends, every point computed on the way is returned as the profile curve
@@ -21,7 +26,8 @@
 //! exactly where the RSS crosses [`ProfileInterval::threshold`].
 //!
 //! References: D. M. Bates & D. G. Watts, *Nonlinear Regression Analysis and Its
-//! Applications* (1988), §6.1; D. J. Venzon & S. H. Moolgavkar, Appl. Stat. 37 (1988) 87–94;
+//! Applications* (1988), §6.1 (the profile t, i.e. the signed root); D. J. Venzon &
+//! S. H. Moolgavkar, Appl. Stat. 37 (1988) 87–94;
 //! M. Dowell & P. Jarratt, BIT 11 (1971) 168–174 (Illinois method).
 
 use rayon::prelude::*;
@@ -38,13 +44,13 @@ use crate::stats::intervals::{chi2_quantile, f1_quantile};
 /// Settings of the profile search.
 #[derive(Debug, Clone, Serialize)]
 pub struct ProfileOptions {
-    /// Grid step in units of the internal standard error.
+    /// Unit of the search range, in internal standard errors.
     pub step: f64,
-    /// Maximum grid steps on each side.
+    /// The search reaches at most `max_steps · step` standard errors from the optimum.
     pub max_steps: usize,
-    /// Relative tolerance on the crossing, in units of the step.
+    /// Tolerance on the crossing, in internal standard errors (and on the signed root).
     pub tolerance: f64,
-    /// Step (internal units) used when a parameter has no standard error.
+    /// First step (internal units) when a parameter has no standard error.
     pub fallback_step: f64,
 }
 
@@ -53,7 +59,7 @@ impl Default for ProfileOptions {
         ProfileOptions {
             step: 0.5,
             max_steps: 40,
-            tolerance: 1e-6,
+            tolerance: 1e-4,
             fallback_step: 0.1,
         }
     }
@@ -141,26 +147,44 @@ fn profile_point<P: ResidualProblem>(
     }
     let sub = set.with_fixed(k, x).ok()?;
     let mut ev = Evaluator::new(problem.clone(), sub);
-    let out = levenberg_marquardt(&mut ev, warm, &opts.lm);
+    // The warm start is close to the constrained optimum, where Gauss–Newton steps are good:
+    // start with little damping, as the polishing search does.
+    let lm = crate::fit::lm::LmOptions {
+        initial_damping: opts.lm.initial_damping.min(1e-3),
+        ..opts.lm.clone()
+    };
+    let out = levenberg_marquardt(&mut ev, warm, &lm);
     out.rss.is_finite().then_some((out.rss, out.u))
 }
 
-/// Follow the profile from the optimum in steps of `h` (internal units) until it crosses
-/// `threshold`; the crossing (internal units, `None`: none found) and every computed
-/// `(internal value, RSS)`, the crossing included.
-#[allow(clippy::too_many_arguments)]
+/// What one side of a profile needs to know about the optimum.
+struct SideSetup<'a> {
+    k: usize,
+    u_hat: &'a [f64],
+    rss_min: f64,
+    s2: f64,
+    /// `z* = √(threshold statistic)`.
+    z_star: f64,
+    /// Internal standard error of parameter k, when known.
+    se: Option<f64>,
+    /// Regression of the other internal coordinates on u_k (from the covariance), when known.
+    slope: Option<Vec<f64>>,
+}
+
+/// Follow the profile from the optimum in direction `dir` (±1) until it crosses the
+/// threshold; the crossing (internal units, `None`: none found) and every computed
+/// `(internal value, RSS)`, the crossing included (with the threshold RSS).
 fn profile_side<P: ResidualProblem>(
     problem: &P,
     set: &ParamSet,
-    k: usize,
-    u_hat: &[f64],
-    h: f64,
+    setup: &SideSetup<'_>,
+    dir: f64,
     threshold: f64,
     opts: &FitOptions,
     po: &ProfileOptions,
 ) -> (Option<f64>, Vec<(f64, f64)>) {
     let mut points = Vec::new();
-    let end = profile_search(problem, set, k, u_hat, h, threshold, opts, po, &mut points);
+    let end = profile_search(problem, set, setup, dir, opts, po, &mut points);
     if let Some(v) = end {
         // The crossing lies on the threshold by construction (to the search tolerance).
         points.push((v, threshold));
@@ -168,80 +192,117 @@ fn profile_side<P: ResidualProblem>(
     (end, points)
 }
 
-/// The search of [`profile_side`]; every computed `(internal value, RSS)` goes to `points`.
-#[allow(clippy::too_many_arguments)]
+/// The search of [`profile_side`] (see the module docs); every computed
+/// `(internal value, RSS)` goes to `points`.
 fn profile_search<P: ResidualProblem>(
     problem: &P,
     set: &ParamSet,
-    k: usize,
-    u_hat: &[f64],
-    h: f64,
-    threshold: f64,
+    setup: &SideSetup<'_>,
+    dir: f64,
     opts: &FitOptions,
     po: &ProfileOptions,
     points: &mut Vec<(f64, f64)>,
 ) -> Option<f64> {
-    let others = |u: &[f64]| -> Vec<f64> {
-        u.iter()
-            .enumerate()
-            .filter(|(i, _)| *i != k)
-            .map(|(_, v)| *v)
-            .collect()
-    };
-    let v0 = u_hat[k];
-    let rss0 = {
-        let mut ev = Evaluator::new(problem.clone(), set.clone());
-        ev.sum_of_squares(u_hat)
-    };
-    let mut prev = (v0, rss0, others(u_hat));
-    for i in 1..=po.max_steps {
-        let v = v0 + h * i as f64;
-        let (rss, warm) = profile_point(problem, set, k, v, &prev.2, opts)?;
-        points.push((v, rss));
-        if rss >= threshold {
-            // Illinois regula falsi between prev (below) and v (above)
-            let (mut a, mut fa) = (prev.0, prev.1 - threshold);
-            let (mut b, mut fb) = (v, rss - threshold);
-            let mut warm_a = prev.2.clone();
-            let mut side = 0;
-            for _ in 0..60 {
-                if (b - a).abs() <= po.tolerance * h.abs() {
-                    break;
-                }
-                let c = b - fb * (b - a) / (fb - fa);
-                let c = if c.is_finite() && (c - a) * (c - b) < 0.0 {
-                    c
-                } else {
-                    0.5 * (a + b)
-                };
-                let (rc, wc) = profile_point(problem, set, k, c, &warm_a, opts)?;
-                points.push((c, rc));
-                let fc = rc - threshold;
-                if fc == 0.0 {
-                    return Some(c);
-                }
-                if fc < 0.0 {
-                    a = c;
-                    fa = fc;
-                    warm_a = wc;
-                    if side == -1 {
-                        fb *= 0.5;
-                    }
-                    side = -1;
-                } else {
-                    b = c;
-                    fb = fc;
-                    if side == 1 {
-                        fa *= 0.5;
-                    }
-                    side = 1;
-                }
-            }
-            return Some(a - fa * (b - a) / (fb - fa));
+    let k = setup.k;
+    let v0 = setup.u_hat[k];
+    let others_hat: Vec<f64> = setup
+        .u_hat
+        .iter()
+        .enumerate()
+        .filter(|(i, _)| *i != k)
+        .map(|(_, v)| *v)
+        .collect();
+    // Warm start at v from a computed point (v_near, warm_near).
+    let warm_at = |v: f64, v_near: f64, warm_near: &[f64]| -> Vec<f64> {
+        match &setup.slope {
+            Some(slope) => warm_near
+                .iter()
+                .zip(slope)
+                .map(|(w, b)| w + b * (v - v_near))
+                .collect(),
+            None => warm_near.to_vec(),
         }
-        prev = (v, rss.min(f64::MAX), warm);
+    };
+    let root = |rss: f64| ((rss - setup.rss_min).max(0.0) / setup.s2).sqrt();
+    let z = setup.z_star;
+    let (unit, first) = match setup.se {
+        Some(se) => (se, z * se),
+        None => {
+            let h = po.fallback_step * v0.abs().max(1.0);
+            (h, h)
+        }
+    };
+    let reach = (po.max_steps as f64 * po.step).max(1.0) * unit;
+    let tol_v = po.tolerance * unit;
+    let tol_z = po.tolerance;
+
+    // Walk out until ρ ≥ z*.
+    let mut below = (v0, 0.0_f64, others_hat.clone());
+    let mut dist = first.min(reach);
+    let above = loop {
+        let v = v0 + dir * dist;
+        let warm = warm_at(v, below.0, &below.2);
+        let (rss, warm) = profile_point(problem, set, k, v, &warm, opts)?;
+        points.push((v, rss));
+        let rho = root(rss);
+        if (rho - z).abs() <= tol_z {
+            return Some(v);
+        }
+        if rho > z {
+            break (v, rho);
+        }
+        if dist >= reach {
+            return None;
+        }
+        // Extrapolate ρ along the line through the optimum, aiming a little beyond z*.
+        let aim = if rho > 0.05 * z {
+            1.1 * dist * z / rho
+        } else {
+            4.0 * dist
+        };
+        below = (v, rho, warm);
+        dist = aim.clamp(1.2 * dist, 4.0 * dist).min(reach);
+    };
+
+    // Illinois regula falsi on g(v) = ρ(v) − z* between `below` (g < 0) and `above` (g > 0).
+    let (mut a, mut ga, mut warm_a) = (below.0, below.1 - z, below.2);
+    let (mut b, mut gb) = (above.0, above.1 - z);
+    let mut side = 0;
+    for _ in 0..60 {
+        if (b - a).abs() <= tol_v {
+            break;
+        }
+        let c = b - gb * (b - a) / (gb - ga);
+        let c = if c.is_finite() && (c - a) * (c - b) < 0.0 {
+            c
+        } else {
+            0.5 * (a + b)
+        };
+        let warm = warm_at(c, a, &warm_a);
+        let (rc, wc) = profile_point(problem, set, k, c, &warm, opts)?;
+        points.push((c, rc));
+        let gc = root(rc) - z;
+        if gc.abs() <= tol_z {
+            return Some(c);
+        }
+        if gc < 0.0 {
+            a = c;
+            ga = gc;
+            warm_a = wc;
+            if side == -1 {
+                gb *= 0.5;
+            }
+            side = -1;
+        } else {
+            b = c;
+            gb = gc;
+            if side == 1 {
+                ga *= 0.5;
+            }
+            side = 1;
+        }
     }
-    None
+    Some(a - ga * (b - a) / (gb - ga))
 }
 
 /// Profile intervals for all free parameters (in parallel).
@@ -278,15 +339,26 @@ pub fn profile_all<P: ResidualProblem>(
     let out = copies
         .into_par_iter()
         .map(|(k, prob)| {
-            let h = match cov.std_errors_internal.get(k).copied().flatten() {
-                Some(se) if se > 0.0 && se.is_finite() => po.step * se,
-                _ => po.fallback_step * u_hat[k].abs().max(1.0),
+            let se = cov
+                .std_errors_internal
+                .get(k)
+                .copied()
+                .flatten()
+                .filter(|se| *se > 0.0 && se.is_finite());
+            let setup = SideSetup {
+                k,
+                u_hat,
+                rss_min,
+                s2,
+                z_star: statistic_threshold.sqrt(),
+                se,
+                slope: regression_on(cov, k),
             };
             let map = set.maps()[k];
-            let (up, mut raw) = profile_side(&prob, set, k, u_hat, h, threshold, opts, po);
+            let (up, mut raw) = profile_side(&prob, set, &setup, 1.0, threshold, opts, po);
             progress.advance();
             let up = up.map(|v| map.to_external(v));
-            let (down, raw_down) = profile_side(&prob, set, k, u_hat, -h, threshold, opts, po);
+            let (down, raw_down) = profile_side(&prob, set, &setup, -1.0, threshold, opts, po);
             progress.advance();
             let down = down.map(|v| map.to_external(v));
             raw.extend(raw_down);
@@ -336,4 +408,21 @@ pub fn profile_all<P: ResidualProblem>(
         .collect();
     progress.finish();
     Ok(out)
+}
+
+/// The regression of the other internal coordinates on `u_k` given by the internal
+/// covariance, `Σ_ok / Σ_kk` for every other free parameter o, in the order of the others;
+/// `None` when an entry is missing.
+fn regression_on(cov: &Covariance, k: usize) -> Option<Vec<f64>> {
+    let row = cov.internal.get(k)?;
+    let var = row
+        .get(k)
+        .copied()
+        .flatten()
+        .filter(|v| *v > 0.0 && v.is_finite())?;
+    row.iter()
+        .enumerate()
+        .filter(|(o, _)| *o != k)
+        .map(|(_, c)| c.map(|c| c / var).filter(|b| b.is_finite()))
+        .collect()
 }

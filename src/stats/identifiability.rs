@@ -255,13 +255,25 @@ pub fn identifiability_warnings(
             (Some(l), Some(h)) => h - l,
             _ => f64::NAN,
         };
+        let log_scale = s.transform == crate::fit::params::Transform::Log && x > 0.0;
         for bound in [s.lower, s.upper].into_iter().flatten() {
-            let scale = if range.is_finite() {
-                range
+            // A log parameter is judged on the log scale it is fitted on: its bounds may span
+            // many decades, and "near" the lower one means near in ratio, not in difference.
+            let at = if log_scale && bound > 0.0 {
+                let span = match (s.lower, s.upper) {
+                    (Some(l), Some(h)) if l > 0.0 && h > l => (h / l).ln(),
+                    _ => 1.0,
+                };
+                (x / bound).ln().abs() <= 1e-6 * span.max(1.0)
             } else {
-                bound.abs().max(x.abs()).max(f64::MIN_POSITIVE)
+                let scale = if range.is_finite() {
+                    range
+                } else {
+                    bound.abs().max(x.abs()).max(f64::MIN_POSITIVE)
+                };
+                (x - bound).abs() <= 1e-6 * scale
             };
-            if (x - bound).abs() <= 1e-6 * scale {
+            if at {
                 w.push(FitWarning {
                     kind: WarningKind::AtBound {
                         parameter: s.name.clone(),

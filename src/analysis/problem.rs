@@ -29,6 +29,8 @@ struct RunState {
     /// Parameters of the last error-controlled solve, and its step sequence.
     base: Option<(Vec<f64>, Vec<f64>)>,
     last_model: Option<Model>,
+    /// Exposure start t0 of the last solve (the request depends on it, the model does not).
+    last_start: Option<f64>,
     last_solution: Solution,
     prediction: Vec<f64>,
 }
@@ -59,6 +61,7 @@ impl ExperimentProblem {
                 solver: Solver::new(experiment.solver.clone())?,
                 base: None,
                 last_model: None,
+                last_start: None,
                 last_solution: Solution::default(),
                 prediction: Vec::with_capacity(d.len()),
             });
@@ -111,47 +114,58 @@ impl ExperimentProblem {
         Ok(out)
     }
 
-    fn near_base(&self, base: &[f64], params: &[f64]) -> bool {
+    /// True when every parameter is within [`REPLAY_RADIUS`] of `base`; the run's exposure
+    /// start (`skip`) is left to [`crate::experiment::Dataset::replay_schedule`].
+    fn near_base(&self, base: &[f64], params: &[f64], skip: Option<usize>) -> bool {
         base.iter()
             .zip(params)
             .zip(&self.typical)
-            .all(|((b, p), t)| {
-                (b - p).abs() <= REPLAY_RADIUS * b.abs().max(*t * 1e-6).max(f64::MIN_POSITIVE)
+            .enumerate()
+            .all(|(i, ((b, p), t))| {
+                Some(i) == skip
+                    || (b - p).abs()
+                        <= REPLAY_RADIUS * b.abs().max(*t * 1e-6).max(f64::MIN_POSITIVE)
             })
     }
 
     fn solve_run(&mut self, d: usize, params: &[f64]) -> Result<()> {
         let dataset = &self.experiment.datasets[d];
         let model = dataset.model_for(params)?;
+        // The data times on the model's clock (shifted by the exposure start, if any).
+        let request = dataset.request_for(params);
+        let start = dataset.exposure_start(params);
         let near = match &self.runs[d].base {
-            Some((b, _)) => self.near_base(b, params),
+            Some((b, _)) => self.near_base(b, params, dataset.exposure_start_parameter()),
             None => false,
         };
         let run = &mut self.runs[d];
-        if run.last_model.as_ref() != Some(&model) {
+        if run.last_model.as_ref() != Some(&model) || run.last_start != Some(start) {
             let replayed = match (&run.base, near) {
-                (Some((_, schedule)), true) => {
-                    match run.solver.solve_with(
-                        &model,
-                        &dataset.request,
-                        StepPlan::Replay(schedule),
-                    ) {
-                        Ok(sol) => {
-                            run.last_solution.clone_from(sol);
-                            true
+                (Some((b, schedule)), true) => match dataset.replay_schedule(b, schedule, params) {
+                    Some(steps) => {
+                        match run
+                            .solver
+                            .solve_with(&model, &request, StepPlan::Replay(&steps))
+                        {
+                            Ok(sol) => {
+                                run.last_solution.clone_from(sol);
+                                true
+                            }
+                            Err(_) => false,
                         }
-                        Err(_) => false,
                     }
-                }
+                    None => false,
+                },
                 _ => false,
             };
             if !replayed {
-                let sol = run.solver.solve(&model, &dataset.request)?;
+                let sol = run.solver.solve(&model, &request)?;
                 run.last_solution.clone_from(sol);
                 let schedule = run.solver.schedule().to_vec();
                 run.base = Some((params.to_vec(), schedule));
             }
             run.last_model = Some(model);
+            run.last_start = Some(start);
         }
         dataset.predict_into(params, &run.last_solution, &mut run.prediction)
     }

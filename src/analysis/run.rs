@@ -222,7 +222,7 @@ fn data_warnings(experiment: &Experiment, result: &FitResult) -> Vec<FitWarning>
             continue;
         }
         let (first, last) = d
-            .request
+            .request_for(&result.estimates)
             .times
             .iter()
             .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &t| {

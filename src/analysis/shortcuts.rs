@@ -128,7 +128,15 @@ pub fn estimate_all(experiment: &Experiment, params: &[f64]) -> Vec<ShortcutEsti
         let Ok(model) = d.model_for(params) else {
             continue;
         };
-        out.extend(for_dataset(i, d, &model));
+        // The methods read the data times on the model's clock (after the exposure start).
+        match d.request_for(params) {
+            std::borrow::Cow::Borrowed(_) => out.extend(for_dataset(i, d, &model)),
+            std::borrow::Cow::Owned(request) => {
+                let mut shifted = d.clone();
+                shifted.request = request;
+                out.extend(for_dataset(i, &shifted, &model));
+            }
+        }
     }
     out
 }

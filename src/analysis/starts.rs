@@ -263,7 +263,7 @@ impl Search {
         let mut total = 0.0;
         for d in &experiment.datasets {
             let model = d.model_for(values)?;
-            let sol = self.solver.solve(&model, &d.request)?;
+            let sol = self.solver.solve(&model, &d.request_for(values))?;
             let raw: Vec<f64> = d.map.iter().map(|&(o, k)| sol.get(o, k)).collect();
             let w: Vec<f64> = d
                 .sigma

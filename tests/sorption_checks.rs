@@ -244,3 +244,187 @@ fn the_residuals_are_a_smooth_function_of_the_exposure_start() {
         assert!(checked > 40, "only {checked} points checked");
     }
 }
+
+/// A coating on an impermeable substrate (left face exposed, right face sealed) measured at
+/// two thicknesses, one file each; D shared, M_inf per run.
+fn coating_two_thicknesses(sigma_mg: f64, l1_um: f64, l2_um: f64) -> String {
+    format!(
+        r#"
+title = "coating on a substrate at two thicknesses"
+[sample]
+shape = "slab"
+value_unit = "mg/cm3"
+thickness = "{l1_um} um"
+diffusivity = "D"
+[ends.left]
+value = "10 mg/cm3"
+[ends.right]
+sealed = true
+[initial]
+value = 0.0
+[parameters.D]
+start = "3e-12 m2/s"
+lower = "1e-16 m2/s"
+[parameters.M_inf]
+start = "0.5 mg"
+per_dataset = true
+[[datasets]]
+name = "thin"
+file = "thin.csv"
+layout = "time_series"
+observe = "fractional_uptake"
+time_column = "time"
+value_column = "mass"
+sigma = "{sigma_mg} mg"
+weighting = "absolute"
+scale = "M_inf"
+[[datasets]]
+name = "thick"
+file = "thick.csv"
+layout = "time_series"
+observe = "fractional_uptake"
+time_column = "time"
+value_column = "mass"
+sigma = "{sigma_mg} mg"
+weighting = "absolute"
+scale = "M_inf"
+[datasets.sample]
+thickness = "{l2_um} um"
+"#
+    )
+}
+
+/// Writes thin.csv and thick.csv for coatings of `l1` and `l2` (m) with one face sealed, the
+/// thick one taking up with `d2` instead of D (to imitate uptake that does not scale).
+fn write_coatings(dir: &Path, l1: f64, l2: f64, d2: f64, sigma_mg: f64) {
+    for (name, l, d, seed) in [("thin", l1, D_TRUE, 3), ("thick", l2, d2, 4)] {
+        // One face sealed: half of a sheet of twice the thickness (Crank 1975 §4.3.1).
+        let l_eff = 2.0 * l;
+        let t = clock_times(1.2 * l_eff * l_eff / d);
+        let mg = noisy(
+            t.iter()
+                .map(|&t| M_INF_MG * sheet_fraction(d * t / (l_eff * l_eff)))
+                .collect(),
+            sigma_mg,
+            seed,
+        );
+        write_csv(&dir.join(format!("{name}.csv")), &t, &mg);
+    }
+}
+
+#[test]
+fn two_thicknesses_share_d_and_pass_the_scaling_check() {
+    let sigma = 0.002;
+    let dir = tempfile::tempdir().unwrap();
+    write_coatings(dir.path(), 40e-6, 80e-6, D_TRUE, sigma);
+    let exp = load(dir.path(), &coating_two_thicknesses(sigma, 40.0, 80.0));
+    // The per-run size reached the model.
+    let size = |d: usize| {
+        let (lo, hi) = exp.datasets[d].sample_extent().unwrap();
+        hi - lo
+    };
+    assert!((size(0) - 40e-6).abs() < 1e-15 && (size(1) - 80e-6).abs() < 1e-15);
+    let a = analyse(exp.clone(), &AnalysisOptions::default()).unwrap();
+    assert!(a.fit.stop.converged(), "{}", a.fit.stop_message);
+    let kd = exp.parameter_index("D").unwrap();
+    let iv = a.fit.parameters[kd].transformed_interval.unwrap();
+    assert!(iv.lower <= D_TRUE && D_TRUE <= iv.upper, "{iv:?}");
+    let c = a.thickness_scaling.as_ref().expect("a thickness check");
+    assert_eq!(c.dimension, "thickness");
+    assert_eq!(c.groups.len(), 2);
+    assert_eq!(c.groups[0].datasets, vec![0]);
+    for g in &c.groups {
+        let s = g.estimate.as_ref().unwrap();
+        assert!(
+            s.interval.0 <= D_TRUE && D_TRUE <= s.interval.1,
+            "{} m: D = {:e}, interval {:?}",
+            g.size,
+            s.value,
+            s.interval
+        );
+    }
+    assert_eq!(c.consistent, Some(true), "{}", c.verdict);
+    assert!(c.verdict.contains("agrees"), "{}", c.verdict);
+}
+
+#[test]
+fn uptake_that_does_not_scale_with_thickness_fails_the_check() {
+    // The thick coating takes up as if D were 2.5 times larger: doubling the thickness
+    // multiplies the half-time by 1.6 instead of 4 (invented; two-stage or case II uptake
+    // does not scale as L² either).
+    let sigma = 0.002;
+    let dir = tempfile::tempdir().unwrap();
+    write_coatings(dir.path(), 40e-6, 80e-6, 2.5 * D_TRUE, sigma);
+    let exp = load(dir.path(), &coating_two_thicknesses(sigma, 40.0, 80.0));
+    let a = analyse(exp.clone(), &AnalysisOptions::default()).unwrap();
+    let c = a.thickness_scaling.as_ref().expect("a thickness check");
+    assert_eq!(c.consistent, Some(false), "{}", c.verdict);
+    assert!(c.p_value < 0.05, "p = {}", c.p_value);
+    let (d1, d2) = (
+        c.groups[0].estimate.as_ref().unwrap().value,
+        c.groups[1].estimate.as_ref().unwrap().value,
+    );
+    assert!((d1 / D_TRUE - 1.0).abs() < 0.02, "thin alone: {d1:e}");
+    assert!(
+        (d2 / (2.5 * D_TRUE) - 1.0).abs() < 0.02,
+        "thick alone: {d2:e}"
+    );
+}
+
+#[test]
+fn a_sealed_face_needs_twice_the_thickness_in_the_half_time_formula() {
+    use fickfit::analytic::sheet::Faces;
+    use fickfit::shortcuts::uptake::{half_time, initial_slope, Geometry, Plateau};
+    // A 50 µm coating on a substrate, exact data (Crank eq. 4.18 for a sheet of 100 µm).
+    let l = 50e-6;
+    let dir = tempfile::tempdir().unwrap();
+    let t = clock_times(1.5 * (2.0 * l) * (2.0 * l) / D_TRUE);
+    let mg: Vec<f64> = t
+        .iter()
+        .map(|&t| M_INF_MG * sheet_fraction(D_TRUE * t / (4.0 * l * l)))
+        .collect();
+    write_csv(&dir.path().join("uptake.csv"), &t, &mg);
+    // The naive reading: the half-time formula D = 0.04919 L²/t½ with the coating's own
+    // thickness, as for a free film open on both faces (Crank 1975 §4.3.4).
+    let plateau = Plateau::Given(M_INF_MG);
+    let naive = half_time(
+        &t,
+        &mg,
+        plateau,
+        Geometry::Sheet {
+            thickness: l,
+            faces: Faces::Both,
+        },
+    )
+    .unwrap();
+    assert!(
+        (naive.d / (D_TRUE / 4.0) - 1.0).abs() < 0.01,
+        "naive half-time D = {:e}: a quarter of the truth expected",
+        naive.d
+    );
+    // Crank's check on t½ itself: D t½/(2L)² = 0.04919.
+    assert!((D_TRUE * naive.t_half / (4.0 * l * l) / 0.04919 - 1.0).abs() < 0.01);
+    let naive_slope = initial_slope(&t, &mg, plateau, l, Faces::Both, 0.5, false).unwrap();
+    assert!((naive_slope.d / (D_TRUE / 4.0) - 1.0).abs() < 0.02);
+    // The analysis reads the sealed face off the model, so its shortcuts use 2L; the fit
+    // needs no such reading.
+    let text = sheet_with_start(0.001, "0 s")
+        .replace(
+            "[ends.right]\nvalue = \"10 mg/cm3\"",
+            "[ends.right]\nsealed = true",
+        )
+        .replace("thickness = \"100 um\"", "thickness = \"50 um\"")
+        .replace("[parameters.t0]\nstart = \"0 s\"\n", "")
+        .replace("exposure_start = \"t0\"\n", "");
+    let exp = load(dir.path(), &text);
+    let a = analyse(exp.clone(), &AnalysisOptions::default()).unwrap();
+    assert!(a.fit.stop.converged(), "{}", a.fit.stop_message);
+    let estimates: Vec<f64> = a.shortcuts.iter().filter_map(|s| s.estimate()).collect();
+    assert_eq!(estimates.len(), 2, "{:?}", a.shortcuts);
+    for d in estimates {
+        // Interpolation between 70 points: 1 % (common practice).
+        assert!((d / D_TRUE - 1.0).abs() < 0.01, "shortcut with 2L: {d:e}");
+    }
+    let d = a.fit.estimates[exp.parameter_index("D").unwrap()];
+    assert!((d / D_TRUE - 1.0).abs() < 1e-3, "fit D = {d:e}");
+}

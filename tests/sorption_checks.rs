@@ -428,3 +428,76 @@ fn a_sealed_face_needs_twice_the_thickness_in_the_half_time_formula() {
     let d = a.fit.estimates[exp.parameter_index("D").unwrap()];
     assert!((d / D_TRUE - 1.0).abs() < 1e-3, "fit D = {d:e}");
 }
+
+#[test]
+fn run_sizes_and_exposure_starts_are_checked_where_written() {
+    use fickfit::InputKind;
+    let dir = tempfile::tempdir().unwrap();
+    let t = clock_times(2e4);
+    let mg: Vec<f64> = t.iter().map(|&t| shifted_uptake(t, 0.0, 100e-6)).collect();
+    write_csv(&dir.path().join("uptake.csv"), &t, &mg);
+    let base = sheet_with_start(0.001, "0 s");
+    let cases: Vec<(String, InputKind, &str, &str)> = vec![
+        (
+            format!("{base}[datasets.sample]\nradius = \"1 mm\"\n"),
+            InputKind::BadValue,
+            "datasets[0].sample.radius",
+            "radius =",
+        ),
+        (
+            format!("{base}[datasets.sample]\n"),
+            InputKind::MissingKey,
+            "datasets[0].sample",
+            "[datasets.sample]",
+        ),
+        (
+            format!("{base}[datasets.sample]\nthicknes = \"1 mm\"\n"),
+            InputKind::UnknownKey,
+            "datasets[0].sample.thicknes",
+            "thicknes =",
+        ),
+        (
+            format!("{base}[datasets.sample]\nthickness = \"-5 um\"\n"),
+            InputKind::BadValue,
+            "datasets[0].sample.thickness",
+            "thickness = \"-5",
+        ),
+        (
+            base.replace("exposure_start = \"t0\"", "exposure_start = \"t1\""),
+            InputKind::UndefinedParameter,
+            "datasets[0].exposure_start",
+            "exposure_start =",
+        ),
+        (
+            base.replace(
+                "[ends.left]\nvalue = \"10 mg/cm3\"",
+                "[ends.left]\nvalue = { rows = [[0, 0], [1, 10]], time_unit = \"min\" }",
+            ),
+            InputKind::BadValue,
+            "datasets[0].exposure_start",
+            "exposure_start =",
+        ),
+    ];
+    for (text, kind, key, line_of) in cases {
+        std::fs::write(dir.path().join("e.toml"), &text).unwrap();
+        let e = match experiment::load(dir.path().join("e.toml")) {
+            Ok(_) => panic!("{key}: should not load"),
+            Err(e) => e,
+        };
+        assert_eq!(e.input_kind(), Some(kind), "{key}: {e}");
+        let loc = e.location().unwrap();
+        assert_eq!(loc.key.as_deref(), Some(key), "{e}");
+        let line = text.lines().position(|l| l.contains(line_of)).unwrap() as u64 + 1;
+        assert_eq!(loc.line, Some(line), "{e}");
+    }
+    // Accepted: a sphere's radius per run.
+    let sphere = base
+        .replace(
+            "shape = \"slab\"\nvalue_unit = \"mg/cm3\"\nthickness = \"100 um\"",
+            "shape = \"sphere\"\nvalue_unit = \"mg/cm3\"\nradius = \"100 um\"",
+        )
+        .replace("[ends.left]\nvalue = \"10 mg/cm3\"\n", "")
+        + "[datasets.sample]\nradius = \"250 um\"\n";
+    let exp = load(dir.path(), &sphere);
+    assert_eq!(exp.datasets[0].sample_extent(), Some((0.0, 250e-6)));
+}

@@ -5,8 +5,8 @@
 //! - plane sheet, both faces held at a fixed value: J. Crank, *The Mathematics of Diffusion*,
 //!   2nd ed. 1975, eq. 4.18, `M_t/M_∞ = 1 − Σ 8/((2n+1)²π²) exp(−(2n+1)²π² D t / L²)`, L the
 //!   full thickness; a sheet of thickness ℓ with one face sealed takes up like half of a sheet
-//!   of thickness 2ℓ (symmetry, Crank 1975 §4.3.1);
-//! - the half-time `D t½ / L² = 0.04919` (Crank 1975 §4.3.4, eq. 4.22).
+//!   of thickness 2ℓ (by symmetry about the sealed face);
+//! - the half-time `D t½ / L² = 0.04919` (Crank 1975 §4.3.4).
 //!
 //! Checked here: an uncertain start of the exposure fitted as a parameter (`exposure_start`),
 //! with its Jacobian column; two thicknesses sharing D (`[datasets.sample]`) and the
@@ -298,7 +298,7 @@ thickness = "{l2_um} um"
 /// thick one taking up with `d2` instead of D (to imitate uptake that does not scale).
 fn write_coatings(dir: &Path, l1: f64, l2: f64, d2: f64, sigma_mg: f64) {
     for (name, l, d, seed) in [("thin", l1, D_TRUE, 3), ("thick", l2, d2, 4)] {
-        // One face sealed: half of a sheet of twice the thickness (Crank 1975 §4.3.1).
+        // One face sealed: half of a sheet of twice the thickness (symmetry).
         let l_eff = 2.0 * l;
         let t = clock_times(1.2 * l_eff * l_eff / d);
         let mg = noisy(

@@ -19,8 +19,8 @@
 //! agree when the χ² upper-tail p-value is at least 1 − level (0.05 for 95 % intervals).
 //!
 //! References: J. Crank, *The Mathematics of Diffusion*, 2nd ed., Oxford 1975, chs. 4–6 and
-//! §11 (non-Fickian uptake); the χ² consistency test of independent estimates is common
-//! practice (e.g. the Birge ratio).
+//! ch. 11 (non-Fickian diffusion; chapter number from memory); the χ² consistency test of
+//! independent estimates is common practice.
 
 use super::problem::ExperimentProblem;
 use super::run::{parameter_specs, Analysis};

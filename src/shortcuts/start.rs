@@ -3,7 +3,8 @@
 //!
 //! At early times the amount exchanged grows as the square root of the time since the step:
 //! `M_t = (4/L) M_∞ √(D (t − t0)/π)` for a plane sheet (Crank 1975, §4.3.2), and to leading
-//! order likewise for a sphere or cylinder (Crank 1975, eqs. 6.21 and 5.23 at short times). So
+//! order likewise for a sphere or cylinder (their short-time forms, Crank 1975, chs. 5 and 6;
+//! from memory). So
 //! the readings of the early part are fitted by
 //!
 //! ```text

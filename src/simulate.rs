@@ -49,7 +49,7 @@ pub fn simulate(
     let mut table = SimulatedTable::default();
     for d in &experiment.datasets {
         let model = d.model_for(params)?;
-        let solution = solver.solve(&model, &d.request)?;
+        let solution = solver.solve(&model, &d.request_for(params))?;
         let predicted = d.predict(params, solution)?;
         for (i, v) in predicted.iter().enumerate() {
             let (_, k) = d.map[i];
@@ -120,7 +120,7 @@ pub fn rewrite_data_file(
     };
     let model = ds.model_for(params)?;
     let mut solver = Solver::new(experiment.solver.clone())?;
-    let solution = solver.solve(&model, &ds.request)?;
+    let solution = solver.solve(&model, &ds.request_for(params))?;
     let predicted = ds.predict(params, solution)?;
     let mut rng = StdRng::seed_from_u64(seed);
     let normal = Normal::new(0.0, noise.max(0.0))

@@ -523,6 +523,17 @@ fn report_json_validates_against_the_documented_schema() {
         .as_str()
         .unwrap()
         .contains("cannot tell"));
+    // The thickness-scaling check (two coating thicknesses sharing D).
+    let coating = fit_into("coating-substrate", &dir.path().join("coating"), &[]);
+    let errors = schema_errors(&coating);
+    assert!(errors.is_empty(), "{errors:#?}");
+    assert_eq!(
+        coating["thickness_scaling"]["groups"]
+            .as_array()
+            .unwrap()
+            .len(),
+        2
+    );
 
     // The validator can fail: an undocumented key, a wrong type and a missing key are found.
     let mut bad = report.clone();

@@ -411,7 +411,12 @@ fn equilibrium_time(analysis: &Analysis, dataset: usize, fraction: f64) -> Resul
     let d = &e.datasets[dataset];
     let model = d.model_for(&analysis.fit.estimates)?;
     let mut solver = Solver::new(e.solver.clone())?;
-    let t_last = d.request.times.iter().copied().fold(0.0, f64::max);
+    let t_last = d
+        .request_for(&analysis.fit.estimates)
+        .times
+        .iter()
+        .copied()
+        .fold(0.0, f64::max);
     if t_last <= 0.0 {
         return Err(Error::Fit("the run has no positive times".into()));
     }

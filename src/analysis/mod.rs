@@ -9,6 +9,7 @@ pub mod problem;
 pub mod run;
 pub mod shortcuts;
 pub mod starts;
+pub mod thickness;
 
 pub use problem::ExperimentProblem;
 pub use run::{analyse, Analysis, AnalysisOptions};

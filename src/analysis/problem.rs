@@ -18,7 +18,7 @@ use crate::error::{Error, Result};
 use crate::experiment::{Dataset, Experiment};
 use crate::fit::problem::{DatasetRange, ResidualProblem};
 use crate::model::Model;
-use crate::solver::{Solution, Solver, StepPlan};
+use crate::solver::{Request, Solution, Solver, StepPlan};
 use rayon::prelude::*;
 use std::sync::Arc;
 
@@ -36,6 +36,8 @@ struct RunState {
     /// Parameters of the last error-controlled solve, and its step sequence.
     base: Option<(Vec<f64>, Vec<f64>)>,
     last_model: Option<Model>,
+    /// Exposure start (s) of the last solve (0 without `exposure_start`).
+    last_start: Option<f64>,
     last_solution: Solution,
     prediction: Vec<f64>,
     /// Spare solvers for the perturbed points of a batch (finite-difference columns), kept
@@ -69,6 +71,7 @@ impl ExperimentProblem {
                 solver: Solver::new(experiment.solver.clone())?,
                 base: None,
                 last_model: None,
+                last_start: None,
                 last_solution: Solution::default(),
                 prediction: Vec::with_capacity(d.len()),
                 spares: Vec::new(),
@@ -144,56 +147,78 @@ impl ExperimentProblem {
     }
 }
 
-/// Whether `params` lie within [`REPLAY_RADIUS`] of `base`, parameter by parameter.
-fn near_base(typical: &[f64], base: &[f64], params: &[f64]) -> bool {
-    base.iter().zip(params).zip(typical).all(|((b, p), t)| {
-        (b - p).abs() <= REPLAY_RADIUS * b.abs().max(*t * 1e-6).max(f64::MIN_POSITIVE)
-    })
+/// Whether `params` lie within [`REPLAY_RADIUS`] of `base`, parameter by parameter; the run's
+/// exposure start (`skip`) is left to [`crate::experiment::Dataset::replay_schedule`].
+fn near_base(typical: &[f64], base: &[f64], params: &[f64], skip: Option<usize>) -> bool {
+    base.iter()
+        .zip(params)
+        .zip(typical)
+        .enumerate()
+        .all(|(i, ((b, p), t))| {
+            Some(i) == skip
+                || (b - p).abs() <= REPLAY_RADIUS * b.abs().max(*t * 1e-6).max(f64::MIN_POSITIVE)
+        })
 }
 
-/// Solve one run at `params` (unless its model is unchanged) and leave its prediction in
-/// `run.prediction`. A point near the run's last error-controlled solve replays that solve's
-/// steps; any other point is solved with error control and becomes the new base.
+/// The step sequence to replay at `params`: the run's base sequence, carried along with the
+/// exposure start when that moved; `None` when `params` are not near the base.
+fn replay_steps(
+    dataset: &Dataset,
+    run: &RunState,
+    typical: &[f64],
+    params: &[f64],
+) -> Option<Vec<f64>> {
+    let (b, schedule) = run.base.as_ref()?;
+    if !near_base(typical, b, params, dataset.exposure_start_parameter()) {
+        return None;
+    }
+    dataset
+        .replay_schedule(b, schedule, params)
+        .map(|s| s.into_owned())
+}
+
+/// Solve one run at `params` (unless its model and exposure start are unchanged) and leave its
+/// prediction in `run.prediction`. A point near the run's last error-controlled solve replays
+/// that solve's steps; any other point is solved with error control and becomes the new base.
 fn solve_run(dataset: &Dataset, run: &mut RunState, typical: &[f64], params: &[f64]) -> Result<()> {
     let model = dataset.model_for(params)?;
-    if run.last_model.as_ref() != Some(&model) {
-        let near = match &run.base {
-            Some((b, _)) => near_base(typical, b, params),
+    let start = dataset.exposure_start(params);
+    if run.last_model.as_ref() != Some(&model) || run.last_start != Some(start) {
+        // The data times on the model's clock (shifted by the exposure start, if any).
+        let request = dataset.request_for(params);
+        let replayed = match replay_steps(dataset, run, typical, params) {
+            Some(steps) => match run
+                .solver
+                .solve_with(&model, &request, StepPlan::Replay(&steps))
+            {
+                Ok(sol) => {
+                    run.last_solution.clone_from(sol);
+                    true
+                }
+                Err(_) => false,
+            },
             None => false,
         };
-        let replayed = match (&run.base, near) {
-            (Some((_, schedule)), true) => {
-                match run
-                    .solver
-                    .solve_with(&model, &dataset.request, StepPlan::Replay(schedule))
-                {
-                    Ok(sol) => {
-                        run.last_solution.clone_from(sol);
-                        true
-                    }
-                    Err(_) => false,
-                }
-            }
-            _ => false,
-        };
         if !replayed {
-            let sol = run.solver.solve(&model, &dataset.request)?;
+            let sol = run.solver.solve(&model, &request)?;
             run.last_solution.clone_from(sol);
             let schedule = run.solver.schedule().to_vec();
             run.base = Some((params.to_vec(), schedule));
         }
         run.last_model = Some(model);
+        run.last_start = Some(start);
     }
     dataset.predict_into(params, &run.last_solution, &mut run.prediction)
 }
 
 /// One perturbed point of one run in a batch: solved on a spare solver, replaying the run's
 /// base steps when near it, never changing the run's own state.
-struct Task<'a> {
+struct Task {
     point: usize,
     model: Model,
+    request: Request,
     solver: Solver,
-    schedule: Option<&'a [f64]>,
+    schedule: Option<Vec<f64>>,
     result: Result<Solution>,
 }
 
@@ -206,6 +231,7 @@ impl ResidualProblem for ExperimentProblem {
         for run in &mut self.runs {
             run.base = None;
             run.last_model = None;
+            run.last_start = None;
         }
     }
 
@@ -245,26 +271,23 @@ impl ResidualProblem for ExperimentProblem {
             let Some(base_model) = run.last_model.clone() else {
                 continue;
             };
-            let schedule = run
-                .base
-                .as_ref()
-                .filter(|(b, _)| near_base(typical, b, base))
-                .map(|(_, s)| s.as_slice());
+            let base_start = run.last_start;
             let mut tasks = Vec::new();
             for (k, point) in points.iter().enumerate() {
                 if status[k].is_err() {
                     continue;
                 }
+                let start = dataset.exposure_start(point);
                 match dataset.model_for(point) {
-                    Ok(model) if model == base_model => {}
+                    Ok(model) if model == base_model && Some(start) == base_start => {}
                     Ok(model) => {
                         let solver = run.spares.pop().unwrap_or_else(|| run.solver.clone());
-                        let near = near_base(typical, base, point);
                         tasks.push(Task {
                             point: k,
                             model,
+                            request: dataset.request_for(point).into_owned(),
                             solver,
-                            schedule: schedule.filter(|_| near),
+                            schedule: replay_steps(dataset, run, typical, point),
                             result: Ok(Solution::default()),
                         });
                     }
@@ -272,15 +295,15 @@ impl ResidualProblem for ExperimentProblem {
                 }
             }
             tasks.par_iter_mut().for_each(|task| {
-                let plan = match task.schedule {
+                let plan = match &task.schedule {
                     Some(s) => StepPlan::Replay(s),
                     None => StepPlan::Adaptive,
                 };
-                let replayed = task.solver.solve_with(&task.model, &dataset.request, plan);
+                let replayed = task.solver.solve_with(&task.model, &task.request, plan);
                 task.result = match replayed {
                     Ok(sol) => Ok(sol.clone()),
                     Err(_) if task.schedule.is_some() => {
-                        task.solver.solve(&task.model, &dataset.request).cloned()
+                        task.solver.solve(&task.model, &task.request).cloned()
                     }
                     Err(e) => Err(e),
                 };

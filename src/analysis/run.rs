@@ -75,6 +75,8 @@ pub struct Analysis {
     pub start_notes: Vec<StartNote>,
     /// The quantities the experiment file asks to derive (`[derived]`).
     pub derived: Vec<super::derived::Derived>,
+    /// The thickness-scaling check, when runs on samples of two or more sizes share D.
+    pub thickness_scaling: Option<super::thickness::ThicknessCheck>,
 }
 
 /// The engine's parameter specs for an experiment, starting from `start` (SI).
@@ -200,8 +202,10 @@ pub fn analyse(experiment: Arc<Experiment>, options: &AnalysisOptions) -> Result
         shortcuts: shortcut_list,
         start_notes,
         derived: Vec::new(),
+        thickness_scaling: None,
     };
     analysis.derived = super::derived::derive_all(&analysis);
+    analysis.thickness_scaling = super::thickness::check(&analysis);
     Ok(analysis)
 }
 
@@ -232,7 +236,7 @@ fn data_warnings(experiment: &Experiment, result: &FitResult) -> Vec<FitWarning>
             continue;
         }
         let (first, last) = d
-            .request
+            .request_for(&result.estimates)
             .times
             .iter()
             .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &t| {

@@ -128,7 +128,15 @@ pub fn estimate_all(experiment: &Experiment, params: &[f64]) -> Vec<ShortcutEsti
         let Ok(model) = d.model_for(params) else {
             continue;
         };
-        out.extend(for_dataset(i, d, &model));
+        // The methods read the data times on the model's clock (after the exposure start).
+        match d.request_for(params) {
+            std::borrow::Cow::Borrowed(_) => out.extend(for_dataset(i, d, &model)),
+            std::borrow::Cow::Owned(request) => {
+                let mut shifted = d.clone();
+                shifted.request = request;
+                out.extend(for_dataset(i, &shifted, &model));
+            }
+        }
     }
     out
 }
@@ -194,6 +202,13 @@ fn for_dataset(index: usize, d: &Dataset, model: &Model) -> Vec<ShortcutEstimate
             }
             let mut rows = points(d);
             rows.sort_by(|a, b| a.1.total_cmp(&b.1));
+            // Readings taken before the exposure began (at model time 0 after the shift by
+            // `exposure_start`) are one baseline point: their mean at t = 0.
+            let before = rows.iter().take_while(|r| r.1 <= 0.0).count();
+            if before > 1 {
+                let mean = rows[..before].iter().map(|r| r.2).sum::<f64>() / before as f64;
+                rows.splice(..before, [(rows[0].0, 0.0, mean)]);
+            }
             let t: Vec<f64> = rows.iter().map(|r| r.1).collect();
             let y: Vec<f64> = rows.iter().map(|r| r.2).collect();
             let baseline_known = d.offset_parameter().is_none()

@@ -1,6 +1,9 @@
 //! Start values for parameters the experiment file leaves without one.
 //!
 //! In this order:
+//! 0. a run's exposure start (`exposure_start = "t0"`): the start of the early `√t` rise of
+//!    its readings ([`crate::shortcuts::start`]; the median over the runs that share it), kept
+//!    inside its bounds; the other rules then see the data on the model's clock;
 //! 1. a dataset's diffusivity: the median of the shortcut estimates of the datasets it drives
 //!    ([`super::shortcuts`]), kept inside its bounds;
 //! 2. any other parameter that enters the model (a transfer coefficient, a flux, a loss rate...)
@@ -18,7 +21,9 @@
 use super::shortcuts::{self, ShortcutEstimate};
 use crate::error::{Error, Result};
 use crate::experiment::{Experiment, Parameter};
-use crate::solver::Solver;
+use crate::shortcuts::start;
+use crate::solver::{Observable, Solver};
+use std::collections::BTreeMap;
 
 /// How a start value was chosen.
 #[derive(Debug, Clone, PartialEq)]
@@ -37,7 +42,7 @@ const GRID: usize = 13;
 /// The start values, with a positive placeholder inside the bounds for each pending one: good
 /// for reading a run's geometry and the kind of each end, not for predictions.
 pub fn values_for_models(experiment: &Experiment) -> Vec<f64> {
-    experiment
+    let mut values: Vec<f64> = experiment
         .parameters
         .iter()
         .map(|p| {
@@ -46,6 +51,62 @@ pub fn values_for_models(experiment: &Experiment) -> Vec<f64> {
             } else {
                 p.placeholder()
             }
+        })
+        .collect();
+    for (i, v, _) in exposure_starts(experiment) {
+        values[i] = v;
+    }
+    values
+}
+
+/// Starts of pending exposure-start parameters from the early rise of the runs that use them:
+/// (parameter, value, how).
+fn exposure_starts(experiment: &Experiment) -> Vec<(usize, f64, String)> {
+    let mut found: BTreeMap<usize, Vec<(f64, String)>> = BTreeMap::new();
+    for d in &experiment.datasets {
+        let Some(i) = d.exposure_start_parameter() else {
+            continue;
+        };
+        let p = &experiment.parameters[i];
+        let uptake = matches!(
+            d.request.observables.as_slice(),
+            [Observable::Amount
+                | Observable::AmountChange
+                | Observable::Mean
+                | Observable::FractionalUptake]
+        );
+        if p.start.is_finite() || !uptake {
+            continue;
+        }
+        let mut rows: Vec<(f64, f64)> = d
+            .map
+            .iter()
+            .zip(&d.observed)
+            .map(|(&(_, k), &y)| (d.request.times[k], y))
+            .collect();
+        rows.sort_by(|a, b| a.0.total_cmp(&b.0));
+        rows.dedup_by(|a, b| a.0 == b.0);
+        let (t, y): (Vec<f64>, Vec<f64>) = rows.into_iter().unzip();
+        let range = p.lower.zip(p.upper);
+        if let Ok(e) = start::exposure_start(&t, &y, range) {
+            found.entry(i).or_default().push((e.t0, d.name.clone()));
+        }
+    }
+    found
+        .into_iter()
+        .map(|(i, mut v)| {
+            v.sort_by(|a, b| a.0.total_cmp(&b.0));
+            let median = if v.len() % 2 == 1 {
+                v[v.len() / 2].0
+            } else {
+                0.5 * (v[v.len() / 2 - 1].0 + v[v.len() / 2].0)
+            };
+            let runs: Vec<&str> = v.iter().map(|r| r.1.as_str()).collect();
+            (
+                i,
+                inside(&experiment.parameters[i], median),
+                format!("start of the early sqrt(t) rise of run {}", runs.join(", ")),
+            )
         })
         .collect()
 }
@@ -103,8 +164,17 @@ pub fn complete(
         .collect();
     let mut notes = Vec::new();
     let mut searched = Vec::new();
+    let starts = exposure_starts(experiment);
     for &i in &pending {
         if linear.contains(&i) {
+            continue;
+        }
+        if let Some((_, v, how)) = starts.iter().find(|s| s.0 == i) {
+            notes.push(StartNote {
+                parameter: i,
+                value: *v,
+                how: how.clone(),
+            });
             continue;
         }
         let p = &experiment.parameters[i];
@@ -263,7 +333,7 @@ impl Search {
         let mut total = 0.0;
         for d in &experiment.datasets {
             let model = d.model_for(values)?;
-            let sol = self.solver.solve(&model, &d.request)?;
+            let sol = self.solver.solve(&model, &d.request_for(values))?;
             let raw: Vec<f64> = d.map.iter().map(|&(o, k)| sol.get(o, k)).collect();
             let w: Vec<f64> = d
                 .sigma

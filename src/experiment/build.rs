@@ -5,6 +5,7 @@
 //! Every physical number becomes either a constant in SI or the index of a parameter, so
 //! [`Dataset::model_for`] fills a template from a parameter vector without parsing anything.
 
+use std::borrow::Cow;
 use std::collections::{BTreeMap, HashMap};
 use std::path::{Path, PathBuf};
 
@@ -293,6 +294,8 @@ pub struct Dataset {
     template: ModelT,
     scale: Option<Num>,
     offset: Option<Num>,
+    /// Start of the exposure t0 on the data's clock (`exposure_start`), s.
+    exposure_start: Option<Num>,
     n_params: usize,
 }
 
@@ -457,6 +460,170 @@ impl Dataset {
             self.scale.map_or(1.0, |n| n.get(params)),
             self.offset.map_or(0.0, |n| n.get(params)),
         )
+    }
+
+    /// The start of the exposure t0 on the data's clock at `params`, s (0 when the dataset
+    /// gives no `exposure_start`).
+    pub fn exposure_start(&self, params: &[f64]) -> f64 {
+        self.exposure_start.map_or(0.0, |n| n.get(params))
+    }
+
+    /// The parameter that is this run's exposure start (`exposure_start = "t0"`), if any.
+    pub fn exposure_start_parameter(&self) -> Option<usize> {
+        match self.exposure_start {
+            Some(Num::Param(i)) => Some(i),
+            _ => None,
+        }
+    }
+
+    /// The solver request of this run at `params`: the data times on the model's clock,
+    /// `τ_k = max(0, t_k − t0)` with t0 the exposure start, so that a point taken before the
+    /// exposure began sees the initial state. Without `exposure_start` this is
+    /// [`Dataset::request`] itself (borrowed).
+    pub fn request_for(&self, params: &[f64]) -> Cow<'_, Request> {
+        if self.exposure_start.is_none() {
+            return Cow::Borrowed(&self.request);
+        }
+        let t0 = self.exposure_start(params);
+        Cow::Owned(Request {
+            times: self
+                .request
+                .times
+                .iter()
+                .map(|&t| (t - t0).max(0.0))
+                .collect(),
+            observables: self.request.observables.clone(),
+        })
+    }
+
+    /// A step sequence for [`crate::solver::StepPlan::Replay`] at `params`, made from the
+    /// sequence `schedule` of a solve of [`Dataset::request_for`] at `base`.
+    ///
+    /// When only the exposure start moved (t0 → t0 − δ, so every model time τ_k > 0 moves to
+    /// τ_k + δ), the steps are carried along by the map
+    ///
+    /// ```text
+    ///   s ↦ s (τ₁ + δ)/τ₁     for s ≤ τ₁   (τ₁ the first model time after 0)
+    ///   s ↦ s + δ             for s > τ₁
+    /// ```
+    ///
+    /// which is continuous, sends every output time to its new value (exactly: output times
+    /// are looked up, not recomputed) and moves each step smoothly with t0. A finite-difference
+    /// derivative with respect to t0 therefore sees a smooth function rather than the jumps of
+    /// a new adaptive step sequence. `None` when the map does not apply: a point crosses the
+    /// start of the exposure, or τ₁ changes by more than 10 % (then solve afresh).
+    pub fn replay_schedule<'s>(
+        &self,
+        base: &[f64],
+        schedule: &'s [f64],
+        params: &[f64],
+    ) -> Option<Cow<'s, [f64]>> {
+        let (t0_base, t0) = (self.exposure_start(base), self.exposure_start(params));
+        if t0_base == t0 {
+            return Some(Cow::Borrowed(schedule));
+        }
+        // (old, new) model times of the points after the start, sorted and unique.
+        let mut pairs = Vec::with_capacity(self.request.times.len());
+        for &t in &self.request.times {
+            let (old, new) = ((t - t0_base).max(0.0), (t - t0).max(0.0));
+            if (old > 0.0) != (new > 0.0) {
+                return None;
+            }
+            if old > 0.0 {
+                pairs.push((old, new));
+            }
+        }
+        pairs.sort_by(|a, b| a.0.total_cmp(&b.0));
+        pairs.dedup_by(|a, b| a.0 == b.0);
+        if pairs.windows(2).any(|w| w[1].1 <= w[0].1) {
+            return None;
+        }
+        let &(first_old, first_new) = pairs.first()?;
+        let ratio = first_new / first_old;
+        if !(0.9..=1.1).contains(&ratio) {
+            return None;
+        }
+        let shift = t0_base - t0;
+        let mut out = Vec::with_capacity(schedule.len());
+        for &s in schedule {
+            let mapped = match pairs.binary_search_by(|p| p.0.total_cmp(&s)) {
+                Ok(k) => pairs[k].1,
+                Err(_) if s < first_old => s * ratio,
+                Err(_) => s + shift,
+            };
+            if out.last().is_some_and(|&prev| mapped <= prev) || !mapped.is_finite() {
+                return None;
+            }
+            out.push(mapped);
+        }
+        Some(Cow::Owned(out))
+    }
+
+    /// The sample's extent (left and right coordinate, m) when it does not depend on
+    /// parameters: (0, L) for a slab, (inner radius, outer radius) for a cylinder or sphere.
+    pub fn sample_extent(&self) -> Option<(f64, f64)> {
+        const_extent(&self.template)
+    }
+
+    /// Indices of every parameter this run's model or prediction uses, sorted, each once.
+    pub fn parameters_used(&self) -> Vec<usize> {
+        let t = &self.template;
+        let mut nums = vec![t.inner_radius, t.exchange_rate, t.ambient, t.reaction_rate];
+        for l in &t.layers {
+            match l.thickness {
+                ThicknessT::Direct(n) => nums.push(n),
+                ThicknessT::Between(a, b) => nums.extend([a, b]),
+            }
+            match l.law {
+                LawT::Constant(n) => nums.push(n),
+                LawT::Exponential(a, b, c) | LawT::Linear(a, b, c) => nums.extend([a, b, c]),
+            }
+            nums.push(l.partition);
+        }
+        let signal = |s: &SignalT, nums: &mut Vec<Num>| match s {
+            SignalT::Const(n) => nums.push(*n),
+            SignalT::Table(_) => {}
+            SignalT::Periodic {
+                mean,
+                amplitude,
+                period,
+                phase,
+            } => nums.extend([*mean, *amplitude, *period, *phase]),
+            SignalT::Gas {
+                pressure,
+                solubility,
+            } => nums.extend([*pressure, *solubility]),
+        };
+        for e in [&t.left, &t.right] {
+            match e {
+                EndT::Value(s) | EndT::Flux(s) => signal(s, &mut nums),
+                EndT::Transfer {
+                    coefficient,
+                    partition,
+                    outside,
+                } => {
+                    nums.extend([*coefficient, *partition]);
+                    signal(outside, &mut nums);
+                }
+                EndT::Sealed => {}
+            }
+        }
+        if let InitialT::Uniform(n) = t.initial {
+            nums.push(n);
+        }
+        nums.extend(self.scale);
+        nums.extend(self.offset);
+        nums.extend(self.exposure_start);
+        let mut out: Vec<usize> = nums
+            .into_iter()
+            .filter_map(|n| match n {
+                Num::Param(i) => Some(i),
+                Num::Const(_) => None,
+            })
+            .collect();
+        out.sort_unstable();
+        out.dedup();
+        out
     }
 
     /// [`Dataset::predict_into`] into a new vector.
@@ -2113,7 +2280,10 @@ fn dataset(
     let key = format!("datasets[{i}]");
     let k = |s: &str| format!("{key}.{s}");
     // The model template: top-level sections with this run's replacements.
-    let (shape, inner, layers) = b.geometry(&file.sample)?;
+    let (shape, inner, mut layers) = b.geometry(&file.sample)?;
+    if let Some(size) = &d.sample {
+        sample_override(b, &file.sample, size, &key, shape, inner, &mut layers)?;
+    }
     let centre = shape != Shape::Slab && inner == Num::Const(0.0);
     let ov = d.ends.clone().unwrap_or_default();
     let left = match (&ov.left, &file.ends.left) {
@@ -2180,6 +2350,27 @@ fn dataset(
         Some(s) => Some(b.literal(s, Kind::Time, Check::Any, &k("time_origin"))?.0),
         None => None,
     };
+    let exposure_start = match &d.exposure_start {
+        Some(s) => Some(b.num(s, Kind::Time, Check::Any, &k("exposure_start"))?),
+        None => None,
+    };
+    if exposure_start.is_some() {
+        let tabled = |e: &EndT| match e {
+            EndT::Value(s) | EndT::Flux(s) | EndT::Transfer { outside: s, .. } => {
+                matches!(s, SignalT::Table(_))
+            }
+            EndT::Sealed => false,
+        };
+        if tabled(&template.left) || tabled(&template.right) {
+            return Err(b.err(
+                InputKind::BadValue,
+                &k("exposure_start"),
+                "'exposure_start' shifts a step exposure, but an end of this run follows a time \
+                 table (rows or a file), which already says when the exposure began; remove \
+                 'exposure_start' or give the end a constant value",
+            ));
+        }
+    }
     let extent = const_extent(&template);
     let opts = ReadOptions {
         time_origin: origin,
@@ -2658,6 +2849,7 @@ fn dataset(
         template,
         scale,
         offset,
+        exposure_start,
         n_params: 0,
     })
 }
@@ -2698,4 +2890,74 @@ fn measured_number(
         return Err(b.err(InputKind::NotFinite, key, format!("'{key}' must be finite")));
     }
     Ok(v)
+}
+
+/// Apply `[datasets.sample]` (this run's thickness or radius) to the one layer of the
+/// top-level sample.
+fn sample_override(
+    b: &mut Builder<'_>,
+    sample: &SampleSpec,
+    size: &SampleOverride,
+    key: &str,
+    shape: Shape,
+    inner: Num,
+    layers: &mut [LayerT],
+) -> Result<()> {
+    let k = |s: &str| format!("{key}.sample.{s}");
+    let [layer] = layers else {
+        return Err(b.err(
+            InputKind::BadValue,
+            &format!("{key}.sample"),
+            "a run's own sample size replaces the thickness or radius of a one-layer sample; \
+             with [[sample.layers]] describe the other sample in its own experiment file",
+        ));
+    };
+    if sample.layers.is_some() {
+        return Err(b.err(
+            InputKind::BadValue,
+            &format!("{key}.sample"),
+            "a run's own sample size replaces the thickness or radius of a one-layer sample, \
+             not of [[sample.layers]]",
+        ));
+    }
+    match (shape, &size.thickness, &size.radius) {
+        (_, None, None) => Err(b.err(
+            InputKind::MissingKey,
+            &format!("{key}.sample"),
+            if shape == Shape::Slab {
+                "give this run's 'thickness'"
+            } else {
+                "give this run's 'radius'"
+            },
+        )),
+        (Shape::Slab, Some(t), None) => {
+            let n = b.num(t, Kind::Length, Check::Positive, &k("thickness"))?;
+            layer.thickness = ThicknessT::Direct(n);
+            Ok(())
+        }
+        (Shape::Slab, _, Some(_)) => Err(b.err(
+            InputKind::BadValue,
+            &k("radius"),
+            "a slab has no 'radius'; give this run's 'thickness'",
+        )),
+        (_, Some(_), _) => Err(b.err(
+            InputKind::BadValue,
+            &k("thickness"),
+            "a cylinder or sphere is sized by 'radius'; give this run's 'radius'",
+        )),
+        (_, None, Some(r)) => {
+            let outer = b.num(r, Kind::Length, Check::Positive, &k("radius"))?;
+            if let (Num::Const(o), Num::Const(i)) = (outer, inner) {
+                if o <= i {
+                    return Err(b.err(
+                        InputKind::BadValue,
+                        &k("radius"),
+                        format!("the radius ({o:e} m) must exceed the inner radius ({i:e} m)"),
+                    ));
+                }
+            }
+            layer.thickness = ThicknessT::Between(outer, inner);
+            Ok(())
+        }
+    }
 }

@@ -309,6 +309,16 @@ pub struct SampleSpec {
     pub layers: Option<Vec<LayerSpec>>,
 }
 
+/// `[datasets.sample]`: the size of this run's sample (a one-layer sample only).
+#[derive(Debug, Clone, PartialEq, Deserialize, Default)]
+#[serde(deny_unknown_fields)]
+pub struct SampleOverride {
+    /// Slab thickness, replacing `sample.thickness`.
+    pub thickness: Option<Scalar>,
+    /// Outer radius of a cylinder or sphere, replacing `sample.radius`.
+    pub radius: Option<Scalar>,
+}
+
 /// `[[sample.layers]]`.
 #[derive(Debug, Clone, PartialEq, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -527,6 +537,11 @@ pub struct DatasetSpec {
     pub weighting: Option<WeightingName>,
     /// Time of the step on the file's clock.
     pub time_origin: Option<Scalar>,
+    /// When the exposure began on the data's clock (after `time_origin`): a time or a
+    /// parameter t0; the model is compared with the data at t − t0.
+    pub exposure_start: Option<Scalar>,
+    /// This run's sample size, replacing the top-level one.
+    pub sample: Option<SampleOverride>,
     /// Prediction = offset + scale · observable.
     pub scale: Option<Scalar>,
     /// Prediction = offset + scale · observable.

@@ -52,6 +52,96 @@ pub struct Report {
     pub comparison: Option<ComparisonReport>,
     /// Quantities derived from the fit (`[derived]` in the experiment file).
     pub derived: Vec<DerivedRow>,
+    /// D fitted to each sample thickness (or radius) alone, and whether they agree; null
+    /// unless runs on samples of two or more sizes share one diffusivity.
+    pub thickness_scaling: Option<ThicknessScalingReport>,
+}
+
+/// The thickness-scaling check (see `fickfit::analysis::thickness`).
+#[derive(Debug, Clone, Serialize)]
+pub struct ThicknessScalingReport {
+    /// The shared diffusivity parameter.
+    pub parameter: String,
+    /// Unit of the estimates (the parameter's).
+    pub unit: String,
+    /// `thickness` (slab) or `radius` (cylinder, sphere).
+    pub dimension: String,
+    /// One row per sample size, thinnest first.
+    pub groups: Vec<ThicknessGroupRow>,
+    /// χ² of ln D of the groups about their weighted mean.
+    pub chi_square: Option<f64>,
+    /// Degrees of freedom (groups − 1).
+    pub dof: usize,
+    /// Upper-tail p-value of `chi_square`.
+    pub p_value: Option<f64>,
+    /// True when the estimates agree at the fit's level; null when the check could not be made.
+    pub consistent: Option<bool>,
+    /// One sentence.
+    pub verdict: String,
+}
+
+/// D fitted to the runs on samples of one size.
+#[derive(Debug, Clone, Serialize)]
+pub struct ThicknessGroupRow {
+    /// The thickness or radial extent, m.
+    pub size_m: f64,
+    /// The same, written for reading (`40 um`).
+    pub size_label: String,
+    /// The runs.
+    pub datasets: Vec<String>,
+    /// D fitted to these runs alone, in `unit`.
+    pub estimate: Option<f64>,
+    /// Its standard error, in `unit`.
+    pub std_error: Option<f64>,
+    /// Lower end of its interval at the fit's level, in `unit`.
+    pub lower: Option<f64>,
+    /// Upper end, in `unit`.
+    pub upper: Option<f64>,
+    /// D in SI (m²/s).
+    pub estimate_si: Option<f64>,
+    /// Why D could not be fitted to these runs alone, when it could not.
+    pub unavailable: Option<String>,
+}
+
+impl ThicknessScalingReport {
+    /// The report section of a check.
+    pub fn new(e: &Experiment, c: &crate::analysis::thickness::ThicknessCheck) -> Self {
+        let p = &e.parameters[c.parameter];
+        // A difference (standard error) converts with the unit's scale only.
+        let diff = |si: f64| finite(si / p.unit_scale);
+        ThicknessScalingReport {
+            parameter: p.name.clone(),
+            unit: p.unit.clone(),
+            dimension: c.dimension.to_string(),
+            groups: c
+                .groups
+                .iter()
+                .map(|g| {
+                    let ok = g.estimate.as_ref().ok();
+                    ThicknessGroupRow {
+                        size_m: g.size,
+                        size_label: crate::analysis::thickness::size_label(g.size),
+                        datasets: g
+                            .datasets
+                            .iter()
+                            .map(|&i| e.datasets[i].name.clone())
+                            .collect(),
+                        estimate: ok.and_then(|s| finite(p.to_unit(s.value))),
+                        std_error: ok.and_then(|s| diff(s.std_error)),
+                        lower: ok.and_then(|s| finite(p.to_unit(s.interval.0))),
+                        upper: ok.and_then(|s| finite(p.to_unit(s.interval.1))),
+                        estimate_si: ok.and_then(|s| finite(s.value)),
+                        unavailable: g.estimate.as_ref().err().cloned(),
+                    }
+                })
+                .collect(),
+            chi_square: finite(c.chi_square),
+            dof: c.dof,
+            p_value: finite(c.p_value),
+            consistent: c.consistent,
+            verdict: c.verdict.clone(),
+        }
+    }
 }
 
 /// A derived quantity.
@@ -611,6 +701,10 @@ impl Report {
             warnings,
             shortcut_estimates: shortcut_rows(e, &analysis.shortcuts, Some(&f.estimates)),
             comparison: None,
+            thickness_scaling: analysis
+                .thickness_scaling
+                .as_ref()
+                .map(|c| ThicknessScalingReport::new(e, c)),
             derived: analysis
                 .derived
                 .iter()

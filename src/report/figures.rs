@@ -113,7 +113,7 @@ pub fn figures(analysis: &Analysis) -> Result<Vec<NamedFigure>> {
             dense.map = (0..ds.request.times.len())
                 .flat_map(|k| (0..dense_x.len()).map(move |o| (o, k)))
                 .collect();
-            let sol = solver.solve(&model, &dense.request)?;
+            let sol = solver.solve(&model, &dense.request_for(params))?;
             let curve = dense.predict(params, sol)?;
             let mut fig = Figure::new(
                 format!("{}: profiles", ds.name),
@@ -180,7 +180,7 @@ pub fn figures(analysis: &Analysis) -> Result<Vec<NamedFigure>> {
             dense.map = (0..no)
                 .flat_map(|o| (0..dense_t.len()).map(move |k| (o, k)))
                 .collect();
-            let sol = solver.solve(&model, &dense.request)?;
+            let sol = solver.solve(&model, &dense.request_for(params))?;
             let curve = dense.predict(params, sol)?;
             let mut fig = Figure::new(
                 format!("{}: data and fitted model", ds.name),

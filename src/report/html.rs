@@ -147,6 +147,7 @@ pub fn render(
 
     derived_section(&mut h, report);
     shortcut_section(&mut h, report);
+    thickness_section(&mut h, report);
     comparison_section(&mut h, report);
 
     h.push_str("<h2>Residual checks</h2>\n<table><tr><th>dataset</th><th>points</th><th>runs (expected)</th><th>Durbin–Watson</th><th>verdict</th></tr>\n");
@@ -298,6 +299,44 @@ fn shortcut_section(h: &mut String, report: &Report) {
         );
     }
     h.push_str("</table>\n");
+}
+
+/// The thickness-scaling check: D fitted to each sample size alone, and the verdict.
+fn thickness_section(h: &mut String, report: &Report) {
+    let Some(c) = &report.thickness_scaling else {
+        return;
+    };
+    let _ = writeln!(
+        h,
+        "<h2>Scaling with {}</h2>\n<p>Fickian uptake depends on time only through D t / L², so \
+         runs on samples of different {} must give the same D when fitted alone.</p>\n\
+         <table><tr><th>{}</th><th>runs</th><th>{} fitted alone</th><th>std. error</th>\
+         <th>interval</th><th>unit</th></tr>",
+        escape(&c.dimension),
+        escape(&c.dimension),
+        escape(&c.dimension),
+        escape(&c.parameter)
+    );
+    for g in &c.groups {
+        let (value, interval) = match &g.unavailable {
+            Some(why) => (format!("not available: {why}"), String::new()),
+            None => (
+                num_with_error(g.estimate, g.std_error),
+                format!("[{}, {}]", num(g.lower), num(g.upper)),
+            ),
+        };
+        let _ = writeln!(
+            h,
+            "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td></tr>",
+            escape(&g.size_label),
+            escape(&g.datasets.join(", ")),
+            escape(&value),
+            escape(&num(g.std_error)),
+            escape(&interval),
+            escape(&c.unit)
+        );
+    }
+    let _ = writeln!(h, "</table>\n<p>{}</p>", escape(&c.verdict));
 }
 
 /// The model comparison by AICc, when other experiment files were fitted beside this one.

@@ -1,6 +1,6 @@
 //! The summary table printed to the terminal after a fit.
 
-use super::data::{Report, ShortcutRow};
+use super::data::{Report, ShortcutRow, ThicknessScalingReport};
 use std::io::{self, Write};
 
 /// A number in a fixed, readable format (significant digits, exponent when needed).
@@ -69,6 +69,36 @@ pub fn write_shortcuts(rows: &[ShortcutRow], out: &mut dyn Write) -> io::Result<
         writeln!(out, "  note: {c}")?;
     }
     Ok(())
+}
+
+/// The thickness-scaling check: D fitted to each sample size alone, and the verdict.
+pub fn write_thickness_scaling(c: &ThicknessScalingReport, out: &mut dyn Write) -> io::Result<()> {
+    writeln!(out)?;
+    writeln!(
+        out,
+        "{}-scaling check ({} fitted to each {} alone):",
+        c.dimension, c.parameter, c.dimension
+    )?;
+    for g in &c.groups {
+        let what = match (&g.unavailable, g.estimate) {
+            (Some(why), _) => format!("not available: {why}"),
+            (None, v) => format!(
+                "{} ± {} {}  [{}, {}]",
+                num_with_error(v, g.std_error),
+                num(g.std_error),
+                c.unit,
+                num(g.lower),
+                num(g.upper)
+            ),
+        };
+        writeln!(
+            out,
+            "  {:<10} {:<28} {what}",
+            g.size_label,
+            g.datasets.join(", ")
+        )?;
+    }
+    writeln!(out, "  {}", c.verdict)
 }
 
 /// Write the summary: parameters, shortcut estimates, fit quality, residual verdicts,
@@ -164,6 +194,9 @@ pub fn write_summary(report: &Report, out: &mut dyn Write) -> io::Result<()> {
         }
     }
     write_shortcuts(&report.shortcut_estimates, out)?;
+    if let Some(c) = &report.thickness_scaling {
+        write_thickness_scaling(c, out)?;
+    }
     let f = &report.fit;
     writeln!(out)?;
     writeln!(

@@ -9,6 +9,7 @@
 //! but unsuitable give [`Error::Fit`](crate::error::Error::Fit) with the reason.
 //!
 //! - [`uptake`]: half-time method and initial `√t` slope for uptake (sorption) curves;
+//! - [`start`]: the start of the exposure of an uptake curve from its early `√t` rise;
 //! - [`profile`]: erfc and Gaussian (drive-in) linearisations of a depth profile;
 //! - [`permeation`]: time-lag method for a membrane;
 //! - [`angstrom`]: Ångström's periodic method with sinusoid fits and lateral loss;
@@ -25,6 +26,7 @@ pub mod angstrom;
 pub mod arrhenius;
 pub mod permeation;
 pub mod profile;
+pub mod start;
 pub mod uptake;
 
 use crate::error::{Error, InputKind, Location, Result};

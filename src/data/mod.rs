@@ -899,6 +899,13 @@ pub fn read_profiles_from<R: Read>(
 // Shared helpers
 
 fn open(path: &Path) -> Result<File> {
+    if path.is_dir() {
+        return Err(Error::input(
+            InputKind::Unreadable,
+            Location::file(path),
+            "this is a folder, not a data file; name the CSV file inside it",
+        ));
+    }
     File::open(path).map_err(|e| {
         Error::input(
             InputKind::Unreadable,

@@ -276,8 +276,9 @@ where
         None => Ok(()),
         Some((line, cell)) => {
             let loc = match header {
-                Some(h) => h.cell(line, cell),
-                None => Location::file(file)
+                // Not in the header row itself, whose cell text is what the quote swallowed.
+                Some(h) if line > h.line => h.cell(line, cell),
+                _ => Location::file(file)
                     .with_line(line)
                     .with_column(format!("{}", cell + 1)),
             };

@@ -280,12 +280,24 @@ fn check_csv(bytes: &[u8]) -> Result<bool, TestCaseError> {
 
 /// Run `cases` seeded cases of a property, counting how many inputs loaded; the run fails on
 /// the first case that breaks the property (shrunk to a small one, as proptest does).
+///
+/// For longer runs without the coverage-guided fuzzer (docs/fuzzing.md),
+/// `FICKFIT_FUZZ_CASES` multiplies the number of cases and `FICKFIT_FUZZ_SEED` changes the
+/// seed, for example `FICKFIT_FUZZ_CASES=100 FICKFIT_FUZZ_SEED=7 cargo test --release --test
+/// fuzz_parsers`.
 fn run_counted<S: Strategy>(
     cases: u32,
     seed: u64,
     strategy: S,
     property: impl Fn(S::Value) -> Result<bool, TestCaseError>,
 ) -> (u32, u32) {
+    let env = |name: &str| {
+        std::env::var(name)
+            .ok()
+            .and_then(|v| v.trim().parse::<u32>().ok())
+    };
+    let cases = cases.saturating_mul(env("FICKFIT_FUZZ_CASES").unwrap_or(1).max(1));
+    let seed = seed ^ u64::from(env("FICKFIT_FUZZ_SEED").unwrap_or(0));
     let config = ProptestConfig {
         cases,
         failure_persistence: None,

@@ -567,6 +567,12 @@ impl<R: Read> LineFilter<R> {
 
     /// Follow the quoting state through the current line.
     fn scan_quotes(&mut self) {
+        // Most lines have no quote: outside a quoted cell, such a line ends outside one.
+        if self.quote != QuoteState::Quoted && !self.buf.contains(&b'"') {
+            self.quote = QuoteState::CellStart;
+            self.cell = 0;
+            return;
+        }
         let d = self.delimiter();
         for &b in &self.buf {
             let end = b == b'\n';

@@ -8,7 +8,33 @@ use clap::Parser;
 use cli::args::{Cli, Command};
 use cli::Outcome;
 
+/// On Ctrl-C (SIGINT), SIGTERM or SIGHUP: remove the report files not yet committed (and a
+/// report folder this run created), then exit with 128 + the signal number, as shells do.
+/// Without this the default action would end the process at once and leave the hidden
+/// staging folder behind until the next run.
+#[cfg(unix)]
+fn clean_up_when_interrupted() {
+    use signal_hook::consts::{SIGHUP, SIGINT, SIGTERM};
+    let Ok(mut signals) = signal_hook::iterator::Signals::new([SIGINT, SIGTERM, SIGHUP]) else {
+        return; // No handler: the default action still stops the program.
+    };
+    let spawned = std::thread::Builder::new()
+        .name("fickfit-signals".into())
+        .spawn(move || {
+            if let Some(signal) = signals.forever().next() {
+                let _held = fickfit::report::folder::abandon_pending();
+                eprintln!("fickfit: interrupted; files not yet complete were removed");
+                std::process::exit(128 + signal);
+            }
+        });
+    drop(spawned);
+}
+
+#[cfg(not(unix))]
+fn clean_up_when_interrupted() {}
+
 fn main() {
+    clean_up_when_interrupted();
     let parsed = match Cli::try_parse() {
         Ok(c) => c,
         Err(e) => {

@@ -688,9 +688,34 @@ fn fitted_csv_is_in_the_data_files_units() {
     assert!((row[4].parse::<f64>().unwrap() - 966.365207).abs() < 1e-6);
 }
 
-/// Send `signal` (a name for kill(1)) to a running fit after ~0.3 s.
+/// True when `dir` holds a staging folder (a run is writing into it).
+fn has_staging(dir: &Path) -> bool {
+    std::fs::read_dir(dir).is_ok_and(|rd| {
+        rd.flatten().any(|e| {
+            e.file_name()
+                .to_string_lossy()
+                .starts_with(".fickfit-staging-")
+        })
+    })
+}
+
+/// Hidden entries of `dir` (staging folders, temporary files).
+fn hidden_files(dir: &Path) -> Vec<String> {
+    std::fs::read_dir(dir)
+        .map(|rd| {
+            rd.flatten()
+                .map(|e| e.file_name().to_string_lossy().into_owned())
+                .filter(|n| n.starts_with('.'))
+                .collect()
+        })
+        .unwrap_or_default()
+}
+
+/// Start a long fit (minutes: 2000 bootstrap refits and profiles) into `out_dir`, wait until
+/// it has opened its staging folder (so it is inside the fit; up to 2 minutes on a loaded
+/// machine), and send it `signal` (a name for kill(1)).
 #[cfg(unix)]
-fn start_and_kill(out_dir: &Path, force: bool, signal: &str) {
+fn start_and_kill(out_dir: &Path, force: bool, signal: &str) -> std::process::ExitStatus {
     let mut cmd = bin();
     cmd.arg("fit")
         .arg(sample("film-uptake"))
@@ -702,12 +727,25 @@ fn start_and_kill(out_dir: &Path, force: bool, signal: &str) {
         cmd.arg("--force");
     }
     let mut child = cmd.spawn().unwrap();
-    std::thread::sleep(std::time::Duration::from_millis(300));
-    let still_running = child.try_wait().unwrap().is_none();
-    assert!(
-        still_running,
-        "the run ended within 0.3 s: the test would prove nothing"
-    );
+    let deadline = std::time::Instant::now() + std::time::Duration::from_secs(120);
+    while !has_staging(out_dir) {
+        assert!(
+            child.try_wait().unwrap().is_none(),
+            "the run ended before staging anything: the test would prove nothing"
+        );
+        assert!(
+            std::time::Instant::now() < deadline,
+            "no staging folder after 2 minutes"
+        );
+        std::thread::sleep(std::time::Duration::from_millis(20));
+    }
+    if !force {
+        assert!(
+            visible_files(out_dir).is_empty(),
+            "report files visible before the commit: {:?}",
+            visible_files(out_dir)
+        );
+    }
     if signal == "KILL" {
         child.kill().unwrap();
     } else {
@@ -720,20 +758,34 @@ fn start_and_kill(out_dir: &Path, force: bool, signal: &str) {
     }
     let status = child.wait().unwrap();
     assert!(!status.success(), "killed runs do not succeed");
+    status
 }
 
 #[cfg(unix)]
 #[test]
 fn a_killed_run_leaves_no_report_and_keeps_a_previous_one() {
+    use std::os::unix::process::ExitStatusExt;
     let dir = tempfile::tempdir().unwrap();
-    for signal in ["KILL", "INT"] {
+    for signal in ["KILL", "INT", "TERM"] {
         let fresh = dir.path().join(format!("fresh-{signal}"));
-        start_and_kill(&fresh, false, signal);
+        let status = start_and_kill(&fresh, false, signal);
         assert!(
             visible_files(&fresh).is_empty(),
             "{signal}: {:?} left in a new report folder",
             visible_files(&fresh)
         );
+        if signal == "KILL" {
+            // Killed outright, the run cannot clean up: its hidden staging folder stays
+            // until the next run into the folder.
+            assert_eq!(status.signal(), Some(9));
+            assert!(has_staging(&fresh));
+        } else {
+            // Asked to stop, it removes what it staged and the folder it created, and exits
+            // with 128 + the signal number (130 for SIGINT, 143 for SIGTERM).
+            let number = if signal == "INT" { 2 } else { 15 };
+            assert_eq!(status.code(), Some(128 + number), "{signal}");
+            assert!(!fresh.exists(), "{signal}: {:?}", hidden_files(&fresh));
+        }
 
         // A previous report, replaced with --force by a run that is killed mid-way.
         let old = dir.path().join(format!("old-{signal}"));
@@ -755,15 +807,20 @@ fn a_killed_run_leaves_no_report_and_keeps_a_previous_one() {
             })
             .collect();
         assert!(before == after, "{signal}: the previous report changed");
+        if signal != "KILL" {
+            assert!(
+                hidden_files(&old).is_empty(),
+                "{signal}: {:?}",
+                hidden_files(&old)
+            );
+        }
 
         // The next run into the same folders works and cleans up after the killed one.
         fit_into("heated-rod", &fresh, &[]);
-        let hidden: Vec<_> = std::fs::read_dir(&fresh)
-            .unwrap()
-            .flatten()
-            .filter(|e| e.file_name().to_string_lossy().starts_with('.'))
-            .collect();
-        assert!(hidden.is_empty(), "{signal}: staging left behind");
+        assert!(
+            hidden_files(&fresh).is_empty(),
+            "{signal}: staging left behind"
+        );
     }
 }
 

@@ -13,9 +13,10 @@ use std::path::{Path, PathBuf};
 use std::sync::Arc;
 
 fn load(path: &Path) -> anyhow::Result<(fickfit::experiment::Experiment, Vec<u8>)> {
+    // The library's reader first: its errors name the place.
+    let experiment = fickfit::experiment::load(path)?;
     let bytes = std::fs::read(path)
         .with_context(|| format!("cannot read the experiment file {}", path.display()))?;
-    let experiment = fickfit::experiment::load(path)?;
     Ok((experiment, bytes))
 }
 

@@ -14,9 +14,11 @@
 //! blank); its cells name the columns with an optional unit in brackets, `time [min]`,
 //! `x [um]`, `T (degC)` (see [`crate::units`]). The delimiter (comma, semicolon, tab) is
 //! detected from the header row unless given. Lines starting with `#` are comments anywhere
-//! in the file. A UTF-8 byte-order mark, CRLF line endings, blank lines, rows of delimiters
-//! only and a trailing delimiter are accepted. Semicolon- or tab-separated files may use a
-//! decimal comma ([`ReadOptions::decimal_comma`]).
+//! in the file. A UTF-8 byte-order mark, CRLF and CR-only line endings, blank lines, rows of
+//! delimiters only and a trailing delimiter are accepted. Cells may be quoted (RFC 4180); a
+//! quote that is never closed is an [`InputKind::Syntax`] error. UTF-16 text is an
+//! [`InputKind::Encoding`] error. Semicolon- or tab-separated files may use a decimal comma
+//! ([`ReadOptions::decimal_comma`]).
 //!
 //! **Columns** are picked by header name, ignoring case, matching either the name part
 //! (without the unit) or the whole cell. Values are converted to SI with the header unit or
@@ -899,6 +901,13 @@ pub fn read_profiles_from<R: Read>(
 // Shared helpers
 
 fn open(path: &Path) -> Result<File> {
+    if path.is_dir() {
+        return Err(Error::input(
+            InputKind::Unreadable,
+            Location::file(path),
+            "this is a folder, not a data file; name the CSV file inside it",
+        ));
+    }
     File::open(path).map_err(|e| {
         Error::input(
             InputKind::Unreadable,

@@ -1,11 +1,13 @@
 //! The CSV table reader shared by every data shape: header, delimiter, comments, cells → SI.
 //!
-//! The reader streams the file once, line by line, through a filter that drops comment and
-//! blank lines, strips a UTF-8 BOM and normalises CRLF, and remembers where each kept line was
-//! in the file; the `csv` crate tokenises the filtered stream (quotes, delimiters), and its
+//! The reader streams the file once, line by line, through a filter that turns CRLF and lone
+//! CR line endings into LF, drops comment and blank lines, strips a UTF-8 BOM, and remembers
+//! where each kept line was in the file; the `csv` crate tokenises the filtered stream (quotes, delimiters), and its
 //! record line numbers are mapped back to file lines. The delimiter is detected on the first
 //! kept line (the header). Every requested column is parsed straight into one `Vec<f64>` in SI
-//! units; no other copy of the data is held.
+//! units; no other copy of the data is held. A double quote that opens a cell and is never
+//! closed is an error (the `csv` crate alone would read the rest of the file as that cell).
+//! Cell and header texts quoted in messages are cut to [`SHOWN_CHARS`] characters.
 //!
 //! Delimiter rule: in the header line, outside double quotes, the most frequent of tab,
 //! semicolon and comma wins; ties go to tab, then semicolon, then comma; a header with none of
@@ -49,7 +51,7 @@ impl Header {
     pub fn loc(&self, col: usize) -> Location {
         let mut loc = Location::file(&self.file).with_line(self.line);
         if let Some(c) = self.cols.get(col) {
-            loc = loc.with_column(c.text.clone());
+            loc = loc.with_column(shown(c.text.as_bytes()));
         }
         loc
     }
@@ -58,20 +60,28 @@ impl Header {
     pub fn cell(&self, line: u64, col: usize) -> Location {
         let mut loc = Location::file(&self.file).with_line(line);
         if let Some(c) = self.cols.get(col) {
-            loc = loc.with_column(c.text.clone());
+            loc = loc.with_column(shown(c.text.as_bytes()));
         } else {
             loc = loc.with_column(format!("{}", col + 1));
         }
         loc
     }
 
-    /// The header texts, for "columns present" messages.
+    /// The header texts, for "columns present" messages (the first 20, each cut to
+    /// [`SHOWN_CHARS`] characters).
     pub fn list(&self) -> String {
-        self.cols
+        const MAX: usize = 20;
+        let mut list = self
+            .cols
             .iter()
-            .map(|c| format!("'{}'", c.text))
+            .take(MAX)
+            .map(|c| format!("'{}'", shown(c.text.as_bytes())))
             .collect::<Vec<_>>()
-            .join(", ")
+            .join(", ");
+        if self.cols.len() > MAX {
+            list.push_str(&format!(" and {} more", self.cols.len() - MAX));
+        }
+        list
     }
 
     /// Find the column whose name part (or whole text) equals `name`, ignoring case.
@@ -104,7 +114,7 @@ impl Header {
                     name.trim(),
                     hits.iter()
                         .filter_map(|i| self.cols.get(*i))
-                        .map(|c| format!("'{}'", c.text))
+                        .map(|c| format!("'{}'", shown(c.text.as_bytes())))
                         .collect::<Vec<_>>()
                         .join(", ")
                 ),
@@ -214,8 +224,18 @@ where
         )
     };
     let map = Rc::new(RefCell::new(LineMap::default()));
-    let mut filter = LineFilter::new(src, Rc::clone(&map));
-    if !filter.next_line().map_err(unreadable)? {
+    let mut filter = LineFilter::new(src, opts.delimiter, Rc::clone(&map));
+    let any = filter.next_line().map_err(unreadable)?;
+    if filter.utf16 {
+        return Err(Error::input(
+            InputKind::Encoding,
+            Location::file(file).with_line(1),
+            "the file is not UTF-8 text: it starts with a UTF-16 byte-order mark or has NUL \
+             bytes (UTF-16 text, or not text at all); save it as UTF-8 (plain CSV) and try \
+             again",
+        ));
+    }
+    if !any {
         return Err(Error::input(
             InputKind::Empty,
             Location::file(file),
@@ -223,17 +243,7 @@ where
              check that the right file is named",
         ));
     }
-    if filter.utf16 {
-        return Err(Error::input(
-            InputKind::Encoding,
-            Location::file(file).with_line(1),
-            "the file is UTF-16 text; save it as UTF-8 (or plain CSV) and try again",
-        ));
-    }
-    let delimiter = match opts.delimiter {
-        Some(d) => d,
-        None => detect_delimiter(filter.current()),
-    };
+    let delimiter = filter.delimiter();
     if opts.decimal_comma && delimiter == b',' {
         return Err(Error::setting(
             "decimal_comma",
@@ -261,17 +271,42 @@ where
         ),
     };
 
+    // A quoted cell still open at the end of the file (the reader has read that far).
+    let unclosed = |filter: &LineFilter<R>, header: Option<&Header>| match filter.unclosed {
+        None => Ok(()),
+        Some((line, cell)) => {
+            let loc = match header {
+                // Not in the header row itself, whose cell text is what the quote swallowed.
+                Some(h) if line > h.line => h.cell(line, cell),
+                _ => Location::file(file)
+                    .with_line(line)
+                    .with_column(format!("{}", cell + 1)),
+            };
+            Err(Error::input(
+                InputKind::Syntax,
+                loc,
+                "this cell opens a double quote that is never closed, so the rest of the \
+                 file would be read as one cell; add the closing quote or remove the opening \
+                 one",
+            ))
+        }
+    };
+
     // Header row.
     let mut rec = csv::ByteRecord::new();
     let mut header = None;
     while rdr.read_byte_record(&mut rec).map_err(csv_err)? {
         let line = line_of(&rec);
         if rec.iter().all(|c| trim_ascii(c).is_empty()) {
+            unclosed(rdr.get_ref(), None)?;
             continue;
         }
-        header = Some(parse_header(&rec, file, line)?);
+        let parsed = parse_header(&rec, file, line);
+        unclosed(rdr.get_ref(), parsed.as_ref().ok())?;
+        header = Some(parsed?);
         break;
     }
+    unclosed(rdr.get_ref(), None)?;
     let Some(header) = header else {
         return Err(Error::input(
             InputKind::Empty,
@@ -297,6 +332,7 @@ where
     let mut scratch = String::new();
 
     while rdr.read_byte_record(&mut rec).map_err(csv_err)? {
+        unclosed(rdr.get_ref(), Some(&header))?;
         let line = line_of(&rec);
         if rec.iter().all(|c| trim_ascii(c).is_empty()) {
             continue; // blank line or a line of delimiters only
@@ -336,7 +372,7 @@ where
                             format!(
                                 "'{}' overflows when converted to SI units; check the \
                                  number and the column's unit",
-                                String::from_utf8_lossy(trim_ascii(raw))
+                                shown(raw)
                             ),
                         ));
                     }
@@ -374,6 +410,7 @@ where
         }
         out.lines.push(line);
     }
+    unclosed(rdr.get_ref(), Some(&header))?;
     Ok((header, out))
 }
 
@@ -404,33 +441,115 @@ impl LineMap {
     }
 }
 
+/// A reader that turns every line ending into LF: CRLF (Windows) and a lone CR (old Mac
+/// files) each become one LF, so that lines are counted the same way whatever the file's
+/// convention. A CR inside a quoted cell is turned into LF too.
+struct LineEndings<R: Read> {
+    src: R,
+    /// The last byte handed out was a CR turned into LF: an LF right after it is dropped.
+    after_cr: bool,
+}
+
+impl<R: Read> LineEndings<R> {
+    fn new(src: R) -> Self {
+        LineEndings {
+            src,
+            after_cr: false,
+        }
+    }
+}
+
+impl<R: Read> Read for LineEndings<R> {
+    fn read(&mut self, out: &mut [u8]) -> std::io::Result<usize> {
+        loop {
+            let n = self.src.read(out)?;
+            let Some(chunk) = out.get_mut(..n) else {
+                return Ok(0);
+            };
+            // Fast path: nothing to change in this chunk.
+            let lf_after_cr = self.after_cr && chunk.first() == Some(&b'\n');
+            if !lf_after_cr && !chunk.contains(&b'\r') {
+                self.after_cr = false;
+                return Ok(n);
+            }
+            let mut kept = 0;
+            for i in 0..n {
+                let b = chunk.get(i).copied().unwrap_or(b'\n');
+                if self.after_cr && b == b'\n' {
+                    self.after_cr = false;
+                    continue;
+                }
+                self.after_cr = b == b'\r';
+                if let Some(slot) = chunk.get_mut(kept) {
+                    *slot = if b == b'\r' { b'\n' } else { b };
+                }
+                kept += 1;
+            }
+            // A chunk that was a single dropped LF: read on rather than signal the end.
+            if kept > 0 {
+                return Ok(kept);
+            }
+        }
+    }
+}
+
+/// Where a line scan is within the CSV fields, with the `csv` crate's quoting rules: a
+/// double quote opens a quoted cell only as the first byte of a cell; inside, `""` is a quote
+/// and a single `"` closes it.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum QuoteState {
+    /// At the start of a cell.
+    CellStart,
+    /// In a cell that did not start with a quote.
+    Unquoted,
+    /// In a quoted cell.
+    Quoted,
+    /// Just after a quote inside a quoted cell (closing it, or the first of `""`).
+    QuoteInQuoted,
+}
+
 /// A reader that drops comment lines (first non-blank byte `#`) and blank lines outside
-/// quoted fields, strips a UTF-8 BOM and turns CRLF into LF, recording where each kept line
-/// was in the file. The `csv` crate then sees no line it would skip, so its line count of a
-/// record's start is exact in the filtered stream and [`LineMap`] turns it into the file's.
+/// quoted fields and strips a UTF-8 BOM, recording where each kept line was in the file. The
+/// `csv` crate then sees no line it would skip, so its line count of a record's start is
+/// exact in the filtered stream and [`LineMap`] turns it into the file's. It also notes a
+/// quoted cell still open at the end of the file, which the `csv` crate would silently
+/// accept as one cell holding the rest of the file.
 struct LineFilter<R: Read> {
-    src: BufReader<R>,
+    src: BufReader<LineEndings<R>>,
     buf: Vec<u8>,
     pos: usize,
     orig: u64,
     kept: u64,
-    in_quotes: bool,
     first: bool,
-    /// The file starts with a UTF-16 byte-order mark.
+    /// The delimiter: the caller's, else detected on the first kept line.
+    delimiter: Option<u8>,
+    quote: QuoteState,
+    /// Cell index (from 0) in the current record.
+    cell: usize,
+    /// File line and cell index where the quoted cell being read was opened.
+    opened: (u64, usize),
+    /// At the end of the input: a quoted cell opened at this (line, cell) was never closed.
+    unclosed: Option<(u64, usize)>,
+    /// The file starts with a UTF-16 byte-order mark, or its first line holds NUL bytes
+    /// (UTF-16 without byte-order mark, or not text at all).
     utf16: bool,
     map: Rc<RefCell<LineMap>>,
 }
 
 impl<R: Read> LineFilter<R> {
-    fn new(src: R, map: Rc<RefCell<LineMap>>) -> Self {
+    fn new(src: R, delimiter: Option<u8>, map: Rc<RefCell<LineMap>>) -> Self {
         LineFilter {
-            src: BufReader::with_capacity(1 << 16, src),
+            src: BufReader::with_capacity(1 << 16, LineEndings::new(src)),
             buf: Vec::new(),
             pos: 0,
             orig: 0,
             kept: 0,
-            in_quotes: false,
             first: true,
+            delimiter,
+            quote: QuoteState::CellStart,
+            cell: 0,
+            opened: (0, 0),
+            unclosed: None,
             utf16: false,
             map,
         }
@@ -441,37 +560,76 @@ impl<R: Read> LineFilter<R> {
         self.buf.get(self.pos..).unwrap_or(&[])
     }
 
+    /// The delimiter in use (comma until the first kept line is read).
+    fn delimiter(&self) -> u8 {
+        self.delimiter.unwrap_or(b',')
+    }
+
+    /// Follow the quoting state through the current line.
+    fn scan_quotes(&mut self) {
+        // Most lines have no quote: outside a quoted cell, such a line ends outside one.
+        if self.quote != QuoteState::Quoted && !self.buf.contains(&b'"') {
+            self.quote = QuoteState::CellStart;
+            self.cell = 0;
+            return;
+        }
+        let d = self.delimiter();
+        for &b in &self.buf {
+            let end = b == b'\n';
+            self.quote = match (self.quote, b) {
+                (QuoteState::Quoted, b'"') => QuoteState::QuoteInQuoted,
+                (QuoteState::Quoted, _) => QuoteState::Quoted,
+                (QuoteState::QuoteInQuoted, b'"') => QuoteState::Quoted,
+                (QuoteState::CellStart, b'"') => {
+                    self.opened = (self.orig, self.cell);
+                    QuoteState::Quoted
+                }
+                (_, b) if b == d => {
+                    self.cell += 1;
+                    QuoteState::CellStart
+                }
+                (_, _) if end => {
+                    self.cell = 0;
+                    QuoteState::CellStart
+                }
+                _ => QuoteState::Unquoted,
+            };
+        }
+    }
+
     /// Load the next kept line; false at the end of the input.
     fn next_line(&mut self) -> std::io::Result<bool> {
         loop {
             self.buf.clear();
             self.pos = 0;
             if self.src.read_until(b'\n', &mut self.buf)? == 0 {
+                if self.quote == QuoteState::Quoted {
+                    self.unclosed = Some(self.opened);
+                }
                 return Ok(false);
             }
             self.orig += 1;
             if self.first {
                 self.first = false;
-                if self.buf.starts_with(&[0xFF, 0xFE]) || self.buf.starts_with(&[0xFE, 0xFF]) {
+                if self.buf.starts_with(&[0xFF, 0xFE])
+                    || self.buf.starts_with(&[0xFE, 0xFF])
+                    || self.buf.contains(&0)
+                {
                     self.utf16 = true;
                 } else if self.buf.starts_with(&[0xEF, 0xBB, 0xBF]) {
                     self.buf.drain(..3);
                 }
             }
-            if !self.in_quotes {
+            if self.quote != QuoteState::Quoted {
                 let content = trim_ascii(&self.buf);
                 if content.is_empty() || content.starts_with(b"#") {
                     continue;
                 }
             }
-            let quotes = self.buf.iter().filter(|&&b| b == b'"').count();
-            if quotes % 2 == 1 {
-                self.in_quotes = !self.in_quotes;
+            if self.delimiter.is_none() {
+                self.delimiter = Some(detect_delimiter(&self.buf));
             }
-            if self.buf.ends_with(b"\r\n") {
-                let n = self.buf.len();
-                self.buf.remove(n - 2);
-            }
+            self.scan_quotes();
             self.kept += 1;
             self.map.borrow_mut().record(self.kept, self.orig);
             return Ok(true);
@@ -508,7 +666,7 @@ pub fn read_header_units(path: &Path) -> Result<Vec<(String, Option<String>)>> {
         source,
     })?;
     let map = Rc::new(RefCell::new(LineMap::default()));
-    let mut filter = LineFilter::new(file, Rc::clone(&map));
+    let mut filter = LineFilter::new(file, None, Rc::clone(&map));
     let unreadable = |e: std::io::Error| Error::Io {
         path: path.to_path_buf(),
         source: e,
@@ -516,7 +674,7 @@ pub fn read_header_units(path: &Path) -> Result<Vec<(String, Option<String>)>> {
     if !filter.next_line().map_err(unreadable)? || filter.utf16 {
         return Ok(Vec::new());
     }
-    let delimiter = detect_delimiter(filter.current());
+    let delimiter = filter.delimiter();
     let mut rdr = csv::ReaderBuilder::new()
         .has_headers(false)
         .flexible(true)
@@ -567,10 +725,7 @@ fn parse_header(rec: &csv::ByteRecord, file: &Path, line: u64) -> Result<Header>
         });
     }
     if numeric > 0 && numeric == cells.iter().filter(|c| !trim_ascii(c).is_empty()).count() {
-        let first = cells
-            .first()
-            .map(|c| String::from_utf8_lossy(trim_ascii(c)).to_string())
-            .unwrap_or_default();
+        let first = cells.first().map(|c| shown(c)).unwrap_or_default();
         return Err(Error::input(
             InputKind::NoHeader,
             Location::file(file).with_line(line),
@@ -615,7 +770,7 @@ fn check_shape(rec: &csv::ByteRecord, header: &Header, line: u64, ncols: usize) 
                     "this row has {n} cells but the header has {ncols} columns (cell {} holds \
                      '{}'); add a header for the extra column or remove the extra cells",
                     extra + 1,
-                    String::from_utf8_lossy(rec.get(extra).unwrap_or(b""))
+                    shown(rec.get(extra).unwrap_or(b""))
                 ),
             ));
         }
@@ -657,8 +812,9 @@ fn parse_number(
             InputKind::NotFinite,
             header.cell(line, col),
             format!(
-                "found '{text}', which is not a finite number; replace it with the measured \
-                 value or delete the row"
+                "found '{}', which is not a finite number; replace it with the measured \
+                 value or delete the row",
+                shown(cell)
             ),
         )),
         Err(_) => {
@@ -671,8 +827,9 @@ fn parse_number(
                 InputKind::NotANumber,
                 header.cell(line, col),
                 format!(
-                    "expected a number, found '{text}'{hint}; correct the cell, or delete the \
-                     row"
+                    "expected a number, found '{}'{hint}; correct the cell, or delete the \
+                     row",
+                    shown(cell)
                 ),
             ))
         }
@@ -688,7 +845,7 @@ fn apply_check(
     line: u64,
     col: usize,
 ) -> Result<()> {
-    let text = || String::from_utf8_lossy(trim_ascii(raw)).to_string();
+    let text = || shown(raw);
     match check {
         CellCheck::None => Ok(()),
         CellCheck::Positive if si > 0.0 => Ok(()),
@@ -766,6 +923,28 @@ pub(crate) fn trim_ascii(mut s: &[u8]) -> &[u8] {
         }
     }
     s
+}
+
+/// The most characters of a cell quoted in a message.
+pub(crate) const SHOWN_CHARS: usize = 40;
+
+/// A cell's text for a message: trimmed, control characters escaped, cut to
+/// [`SHOWN_CHARS`] characters (a binary file given as data must not flood the terminal).
+pub(crate) fn shown(raw: &[u8]) -> String {
+    let text = String::from_utf8_lossy(trim_ascii(raw));
+    let mut out = String::new();
+    for (i, c) in text.chars().enumerate() {
+        if i == SHOWN_CHARS {
+            out.push('…');
+            break;
+        }
+        if c.is_control() {
+            out.extend(c.escape_default());
+        } else {
+            out.push(c);
+        }
+    }
+    out
 }
 
 #[cfg(test)]

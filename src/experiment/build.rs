@@ -1102,6 +1102,17 @@ impl<'a> Builder<'a> {
 
     fn resolve_path(&self, written: &str, key: &str) -> Result<PathBuf> {
         let resolved = self.base.join(written);
+        if resolved.is_dir() {
+            return Err(self.err(
+                InputKind::Unreadable,
+                key,
+                format!(
+                    "data file '{written}' (as written), resolved to '{}', is a folder; name \
+                     the CSV file inside it",
+                    resolved.display()
+                ),
+            ));
+        }
         if let Err(e) = std::fs::File::open(&resolved) {
             return Err(self.err(
                 InputKind::Unreadable,

@@ -38,6 +38,16 @@ pub fn parse_str(text: &str, name: &Path) -> Result<schema::ExperimentFile> {
 }
 
 fn parse_indexed(text: &str, name: &Path) -> Result<(schema::ExperimentFile, locate::SpanIndex)> {
+    // TOML allows LF and CRLF line endings only; a file saved with old-Mac CR endings is read
+    // with LF so that it loads and its lines are counted as the user sees them. (A CR byte
+    // is not allowed anywhere else in TOML, so nothing valid changes meaning.)
+    let unified;
+    let text = if text.contains('\r') {
+        unified = text.replace("\r\n", "\n").replace('\r', "\n");
+        unified.as_str()
+    } else {
+        text
+    };
     let (index, syntax) = locate::SpanIndex::new(name, text);
     if let Some(e) = syntax {
         return Err(locate::syntax_error(&index, text, &e));
@@ -59,6 +69,13 @@ pub fn from_str(text: &str, name: &Path, base: &Path) -> Result<Experiment> {
 /// directory).
 pub fn load(path: impl AsRef<Path>) -> Result<Experiment> {
     let path = path.as_ref();
+    if path.is_dir() {
+        return Err(Error::input(
+            InputKind::Unreadable,
+            Location::file(path),
+            "this is a folder, not an experiment file; name the .toml file inside it",
+        ));
+    }
     let bytes = std::fs::read(path).map_err(|e| {
         Error::input(
             InputKind::Unreadable,
@@ -66,6 +83,21 @@ pub fn load(path: impl AsRef<Path>) -> Result<Experiment> {
             format!("cannot read the experiment file: {e}"),
         )
     })?;
+    // UTF-16 text (with or without byte-order mark) has NUL bytes or invalid UTF-8, and
+    // TOML allows neither: name the encoding rather than the first odd character.
+    if bytes.starts_with(&[0xFF, 0xFE]) || bytes.starts_with(&[0xFE, 0xFF]) || bytes.contains(&0) {
+        let line = bytes
+            .iter()
+            .take_while(|&&c| c != 0)
+            .filter(|&&c| c == b'\n')
+            .count() as u64;
+        return Err(Error::input(
+            InputKind::Encoding,
+            Location::file(path).with_line(line + 1),
+            "the experiment file is not UTF-8 text: it starts with a UTF-16 byte-order mark \
+             or has NUL bytes (UTF-16 text, or not text at all); save it as UTF-8 and try again",
+        ));
+    }
     let text = String::from_utf8(bytes).map_err(|e| {
         let offset = e.utf8_error().valid_up_to();
         let line = e.as_bytes()[..offset]

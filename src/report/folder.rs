@@ -9,11 +9,76 @@
 //! folder left by a killed run is hidden, ignored when judging whether the folder is empty, and
 //! removed by the next run into the same folder (on Linux, once its process is gone). A single
 //! file outside a report ([`write_atomic`]) goes through a temporary sibling and a rename.
+//!
+//! Every staging folder and temporary file not yet committed is also listed in this process
+//! ([`abandon_pending`]), so a program that is asked to stop (Ctrl-C) can remove them, and the
+//! report folder it created, before it exits: nothing is then left behind at all. A run killed
+//! outright (SIGKILL, power loss) cannot clean up; its staging folder stays hidden until the
+//! next run into the same folder removes it.
 
 use crate::error::{Error, InputKind, Location, Result};
 use std::fs;
 use std::io::Write;
 use std::path::{Path, PathBuf};
+use std::sync::{Mutex, MutexGuard};
+
+/// Output of this process not yet committed.
+#[derive(Debug)]
+enum Pending {
+    /// A staging folder, and the report folder when this run created it.
+    Staging {
+        staging: PathBuf,
+        created: Option<PathBuf>,
+    },
+    /// A temporary file of [`write_atomic`].
+    Temporary(PathBuf),
+}
+
+/// The uncommitted output of this process. A commit holds the lock while it moves files, so
+/// [`abandon_pending`] either waits for a commit to finish or keeps it from starting.
+static PENDING: Mutex<Vec<Pending>> = Mutex::new(Vec::new());
+
+fn pending() -> MutexGuard<'static, Vec<Pending>> {
+    // A panic while the list was held leaves it usable: it is only a list of paths.
+    PENDING.lock().unwrap_or_else(|e| e.into_inner())
+}
+
+fn forget(list: &mut Vec<Pending>, path: &Path) {
+    list.retain(|p| match p {
+        Pending::Staging { staging, .. } => staging != path,
+        Pending::Temporary(t) => t != path,
+    });
+}
+
+/// Held after [`abandon_pending`]: while it lives, no report can be committed and no
+/// temporary file renamed into place.
+#[must_use = "hold it until the process has exited"]
+pub struct Abandoned {
+    _guard: MutexGuard<'static, Vec<Pending>>,
+}
+
+/// Remove every staging folder and temporary file this process has not committed, and the
+/// report folders it created if they are then empty. For a program about to exit on an
+/// interrupt: the returned guard keeps any commit from starting (or finishing half-way), so
+/// hold it until the process has exited.
+pub fn abandon_pending() -> Abandoned {
+    let mut list = pending();
+    for p in list.drain(..) {
+        match p {
+            Pending::Staging { staging, created } => {
+                let _ = fs::remove_dir_all(&staging);
+                if let Some(dir) = created {
+                    // Fails, harmlessly, when the folder holds anything else.
+                    let _ = fs::remove_dir(&dir);
+                }
+            }
+            Pending::Temporary(t) => {
+                let _ = fs::remove_file(&t);
+            }
+        }
+    }
+    Abandoned { _guard: list }
+}
 
 /// Prefix of the hidden staging folder.
 const STAGING_PREFIX: &str = ".fickfit-staging-";
@@ -91,6 +156,10 @@ impl ReportFolder {
             fs::remove_dir_all(&staging).map_err(io_err)?;
         }
         fs::create_dir(&staging).map_err(io_err)?;
+        pending().push(Pending::Staging {
+            staging: staging.clone(),
+            created: created.then(|| dir.to_path_buf()),
+        });
         Ok(ReportFolder {
             dir: dir.to_path_buf(),
             staging,
@@ -135,11 +204,14 @@ impl ReportFolder {
             .filter(|n| !n.starts_with('.'))
             .collect();
         names.sort();
+        // Held while the files move: an interrupt waits for the commit to finish.
+        let mut list = pending();
         for n in &names {
             let target = self.dir.join(n);
             fs::rename(self.staging.join(n), &target).map_err(io_err(&target))?;
         }
         fs::remove_dir_all(&self.staging).map_err(io_err(&self.staging))?;
+        forget(&mut list, &self.staging);
         self.committed = true;
         Ok(names)
     }
@@ -152,6 +224,8 @@ impl Drop for ReportFolder {
         if self.committed {
             return;
         }
+        let mut list = pending();
+        forget(&mut list, &self.staging);
         let _ = fs::remove_dir_all(&self.staging);
         if self.created {
             // Fails, harmlessly, when something else was put there meanwhile.
@@ -178,13 +252,17 @@ pub fn write_atomic(
         .map(|n| n.to_string_lossy().into_owned())
         .unwrap_or_default();
     let tmp = dir.join(format!(".{name}.partial-{}", std::process::id()));
+    pending().push(Pending::Temporary(tmp.clone()));
     let result = (|| {
         let file = fs::File::create(&tmp)?;
         let mut w = std::io::BufWriter::new(file);
         fill(&mut w)?;
         let file = w.into_inner().map_err(|e| e.into_error())?;
         file.sync_all()?;
-        fs::rename(&tmp, path)
+        let mut list = pending();
+        let moved = fs::rename(&tmp, path);
+        forget(&mut list, &tmp);
+        moved
     })();
     if let Err(e) = result {
         let _ = fs::remove_file(&tmp);

@@ -16,8 +16,9 @@
 //! at a new value) does not ring as plain Crank–Nicolson does. Both stages share the matrix
 //! I − d h J. The local error is estimated from the three stage derivatives (a divided
 //! difference, filtered by (I − d h J)⁻¹ for stiff components) and the step adapts to keep it
-//! below the tolerance; steps land exactly on every requested output time and on every row of a
-//! boundary time table. Each stage is solved by Newton's method to convergence when D depends
+//! below the tolerance; steps land exactly on every row of a boundary time table and on every
+//! requested output time, except that output times denser than the steps are interpolated with
+//! the step's cubic Hermite interpolant (see `interpolate_outputs`). Each stage is solved by Newton's method to convergence when D depends
 //! on u; when the problem is linear, one tridiagonal solve is exact.
 //!
 //! Conservation: the amount in the sample and the cumulative amount through each end are
@@ -110,7 +111,8 @@ pub enum StepPlan<'a> {
     /// it (refinement studies and benchmarks).
     Fixed(usize),
     /// Exactly the step end times of an earlier solve ([`Solver::schedule`]); they must include
-    /// every output time of this request.
+    /// every table row of the boundary conditions and reach the last output time (output times
+    /// between step ends are interpolated).
     Replay(&'a [f64]),
 }
 
@@ -159,6 +161,18 @@ impl Solution {
     }
 }
 
+/// One accepted step, for the interpolation of the outputs inside it.
+struct Span {
+    t0: f64,
+    t1: f64,
+    /// Cumulative flow per unit end area through (left, right) at t0 and t1.
+    cum0: (f64, f64),
+    cum1: (f64, f64),
+    /// End fluxes at t0 and t1.
+    flux0: EndFluxes,
+    flux1: EndFluxes,
+}
+
 /// Work space for the time loop, allocated once per grid size.
 #[derive(Debug, Clone, Default)]
 struct Work {
@@ -181,6 +195,8 @@ struct Work {
     faces: FaceWork,
     fact: Factored,
     two: TwoWay,
+    /// A state interpolated inside a step, filled only in the cells the observables read.
+    u_mid: Vec<f64>,
 }
 
 impl Work {
@@ -202,6 +218,7 @@ impl Work {
             &mut self.ml,
             &mut self.md,
             &mut self.mu,
+            &mut self.u_mid,
         ] {
             v.clear();
             v.resize(n, 0.0);
@@ -224,7 +241,11 @@ pub struct Solver {
     stops: Vec<f64>,
     order: Vec<usize>,
     is_output: Vec<bool>,
+    /// Whether each stop is a row of a boundary time table (a step must end there).
+    is_break: Vec<bool>,
     stencils: Vec<Option<Stencil>>,
+    /// The cells the observables read (end cells and the stencils' cells), for interpolation.
+    read_cells: Vec<usize>,
     at_stops: Vec<f64>,
     solution: Solution,
 }
@@ -265,6 +286,8 @@ impl Solver {
             stops: Vec::new(),
             order: Vec::new(),
             is_output: Vec::new(),
+            is_break: Vec::new(),
+            read_cells: Vec::new(),
             stencils: Vec::new(),
             at_stops: Vec::new(),
             solution: Solution::default(),
@@ -335,9 +358,11 @@ impl Solver {
         self.stops.clear();
         self.stops.extend_from_slice(&request.times);
         let t_end = request.times.iter().cloned().fold(0.0, f64::max);
+        // Table rows, where the forcing has a kink: every step must end on one.
+        self.at_stops.clear();
         for end in [&model.left, &model.right] {
             if let Some(s) = end.signal() {
-                self.stops.extend(
+                self.at_stops.extend(
                     s.breakpoints()
                         .iter()
                         .map(|r| r.0)
@@ -345,8 +370,15 @@ impl Solver {
                 );
             }
         }
+        self.stops.extend_from_slice(&self.at_stops);
         self.stops.sort_by(f64::total_cmp);
         self.stops.dedup();
+        self.is_break.clear();
+        self.is_break.resize(self.stops.len(), false);
+        for &b in &self.at_stops {
+            let k = self.stops.partition_point(|&s| s < b);
+            self.is_break[k] = true;
+        }
         self.order.clear();
         for &t in &request.times {
             // Exact match exists by construction.
@@ -372,6 +404,21 @@ impl Solver {
                 _ => None,
             });
         }
+        let n = self.grid.len();
+        self.read_cells.clear();
+        self.read_cells.extend([0, n - 1]);
+        for st in self.stencils.iter().flatten() {
+            for p in [st.p0, st.p1] {
+                match p {
+                    observe::Point::Centre(i) => self.read_cells.push(i),
+                    observe::Point::FaceLeftSide(f) | observe::Point::FaceRightSide(f) => {
+                        self.read_cells.extend([f.saturating_sub(1), f.min(n - 1)])
+                    }
+                }
+            }
+        }
+        self.read_cells.sort_unstable();
+        self.read_cells.dedup();
         Ok(())
     }
 
@@ -388,7 +435,7 @@ impl Solver {
         a * model.geometry.shape.measure_factor()
     }
 
-    /// Record observables at stop index `k`.
+    /// Record observables at stop index `k` from the current state.
     #[allow(clippy::too_many_arguments)]
     fn record(
         &mut self,
@@ -400,9 +447,34 @@ impl Solver {
         amount_inf: f64,
         cum: (f64, f64),
     ) {
+        let amount = self.amount(model, &self.work.u);
+        self.record_state(
+            model, request, k, t, amount0, amount_inf, cum, amount, false,
+        );
+    }
+
+    /// Record observables at stop index `k` from the amount and cumulative flows given and the
+    /// state in `u` (`interpolated`: in `u_mid`, which holds only the cells the observables
+    /// read).
+    #[allow(clippy::too_many_arguments)]
+    fn record_state(
+        &mut self,
+        model: &Model,
+        request: &Request,
+        k: usize,
+        t: f64,
+        amount0: f64,
+        amount_inf: f64,
+        cum: (f64, f64),
+        amount: f64,
+        interpolated: bool,
+    ) {
         let ns = self.stops.len();
-        let u = &self.work.u;
-        let amount = self.amount(model, u);
+        let u = if interpolated {
+            &self.work.u_mid
+        } else {
+            &self.work.u
+        };
         for (o, obs) in request.observables.iter().enumerate() {
             let v = match *obs {
                 Observable::ValueAt(_) => match &self.stencils[o] {
@@ -525,12 +597,26 @@ impl Solver {
                             "replayed schedule ends before the last output time".into(),
                         ));
                     };
-                    if tn > stop {
+                    // Output times inside a replayed step are interpolated; table rows are not.
+                    let passed = self.stops[k..].partition_point(|&s| s < tn);
+                    if let Some(b) = (k..k + passed).find(|&j| self.is_break[j]) {
                         return Err(Error::Internal(format!(
-                            "replayed schedule skips output time {stop} s"
+                            "replayed schedule skips table row {} s",
+                            self.stops[b]
                         )));
                     }
                     (tn, false)
+                }
+                StepPlan::Adaptive if k + 1 < ns && self.stops[k + 1] <= t + h => {
+                    // Two or more stops within the step the error control allows: end it on
+                    // the last of them (or on the first table row), and interpolate the output
+                    // times passed on the way (see `interpolate_outputs`).
+                    let within = self.stops[k..].partition_point(|&s| s <= t + h);
+                    let mut last = k + within - 1;
+                    if let Some(b) = (k..=last).find(|&j| self.is_break[j]) {
+                        last = b;
+                    }
+                    (self.stops[last], true)
                 }
                 _ => {
                     let remaining = stop - t;
@@ -556,10 +642,8 @@ impl Solver {
                 return Err(Error::Solver {
                     time: t,
                     message: format!(
-                        "more than {} time steps; every distinct output time ends a step, so \
-                         data with very many times need solver.maximum_steps raised above \
-                         their number; otherwise loosen solver.tolerance or check the model \
-                         settings",
+                        "more than {} time steps; raise solver.maximum_steps, loosen \
+                         solver.tolerance or check the model settings for extreme values",
                         self.options.maximum_steps
                     ),
                 });
@@ -625,6 +709,7 @@ impl Solver {
             );
             let flux_g = self.op.end_fluxes(model, &self.work.u_g, t + GAMMA * hs);
             let flux_1 = self.op.end_fluxes(model, &self.work.u, t_new);
+            let (cum_start, flux_start) = (cum, flux_n);
             let qg = (
                 cum.0 + c * (flux_n.left + flux_g.left),
                 cum.1 + c * (flux_n.right + flux_g.right),
@@ -653,8 +738,22 @@ impl Solver {
                 let shift = drift / model.geometry.volume();
                 self.work.u.iter_mut().for_each(|x| *x += shift);
             }
+            // Output times passed inside the step (dense outputs, or a replayed step).
+            let passed = self.stops[k..].partition_point(|&s| s < t_new);
+            if passed > 0 {
+                let span = Span {
+                    t0: t,
+                    t1: t_new,
+                    cum0: cum_start,
+                    cum1: cum,
+                    flux0: flux_start,
+                    flux1: flux_1,
+                };
+                self.interpolate_outputs(model, request, k..k + passed, &span, amount0, amount_inf);
+                k += passed;
+            }
             std::mem::swap(&mut self.work.f_n, &mut self.work.f_1);
-            t = if t_new == stop { stop } else { t_new };
+            t = t_new;
             stats.steps += 1;
             just_rejected = false;
             self.schedule.push(t);
@@ -674,7 +773,7 @@ impl Solver {
                 StepPlan::Fixed(m) => h = t_end / m as f64,
                 StepPlan::Replay(_) => {}
             }
-            if t == stop {
+            if k < ns && self.stops[k] == t {
                 if self.is_output[k] {
                     self.record(model, request, k, t, amount0, amount_inf, cum);
                 }
@@ -700,6 +799,71 @@ impl Solver {
             });
         }
         Ok(())
+    }
+
+    /// Record the output stops `ks`, which lie inside the step `span` just taken, from the cubic
+    /// Hermite interpolant of the step: for y(t₀ + θh) with values y₀, y₁ and slopes y′₀, y′₁,
+    ///
+    /// ```text
+    ///   y = (2θ³ − 3θ² + 1) y₀ + (θ³ − 2θ² + θ) h y′₀ + (3θ² − 2θ³) y₁ + (θ³ − θ²) h y′₁
+    /// ```
+    ///
+    /// applied to the cells the observables read (slopes F(u)), to the amount (slope Σ V F) and
+    /// to the cumulative flow through each end (slope: the end flux). Its error is O(h⁴), below
+    /// the O(h³) local error of the step itself (E. Hairer, S. P. Nørsett, G. Wanner, *Solving
+    /// Ordinary Differential Equations I*, 2nd ed., 1993, §II.6, dense output). Uses `u_n`,
+    /// `f_n` (start of the step) and `u`, `f_1` (end), so it runs before `f_n` is replaced.
+    fn interpolate_outputs(
+        &mut self,
+        model: &Model,
+        request: &Request,
+        ks: std::ops::Range<usize>,
+        span: &Span,
+        amount0: f64,
+        amount_inf: f64,
+    ) {
+        if !ks.clone().any(|j| self.is_output[j]) {
+            return;
+        }
+        let mf = model.geometry.shape.measure_factor();
+        let w = &self.work;
+        let dot = |a: &[f64]| -> f64 {
+            self.grid
+                .measures
+                .iter()
+                .zip(a)
+                .map(|(v, x)| v * x)
+                .sum::<f64>()
+                * mf
+        };
+        let (a0, a1, da0, da1) = (dot(&w.u_n), dot(&w.u), dot(&w.f_n), dot(&w.f_1));
+        let h = span.t1 - span.t0;
+        for j in ks {
+            if !self.is_output[j] {
+                continue;
+            }
+            let s = self.stops[j];
+            let th = (s - span.t0) / h;
+            let (t2, t3) = (th * th, th * th * th);
+            let (h00, h10, h01, h11) = (
+                2.0 * t3 - 3.0 * t2 + 1.0,
+                (t3 - 2.0 * t2 + th) * h,
+                3.0 * t2 - 2.0 * t3,
+                (t3 - t2) * h,
+            );
+            let herm =
+                |y0: f64, d0: f64, y1: f64, d1: f64| h00 * y0 + h10 * d0 + h01 * y1 + h11 * d1;
+            let w = &mut self.work;
+            for &c in &self.read_cells {
+                w.u_mid[c] = herm(w.u_n[c], w.f_n[c], w.u[c], w.f_1[c]);
+            }
+            let amount = herm(a0, da0, a1, da1);
+            let cum = (
+                herm(span.cum0.0, span.flux0.left, span.cum1.0, span.flux1.left),
+                herm(span.cum0.1, span.flux0.right, span.cum1.1, span.flux1.right),
+            );
+            self.record_state(model, request, j, s, amount0, amount_inf, cum, amount, true);
+        }
     }
 
     /// F(u, t) of the current state u into `fe` (and the Jacobian into jl/jd/ju when `jac`).

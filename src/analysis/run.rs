@@ -128,13 +128,7 @@ pub fn analyse(experiment: Arc<Experiment>, options: &AnalysisOptions) -> Result
         },
         ..Default::default()
     };
-    fit_options.lm.max_iterations = experiment.fit.maximum_iterations;
-    // The iteration limit bounds the whole search: the Nelder–Mead fallback gets 25 simplex
-    // iterations for each allowed LM iteration (5000 at the default 200).
-    fit_options.nelder_mead_iterations = 25 * experiment.fit.maximum_iterations as u64;
-    fit_options.lm.ftol = experiment.fit.tolerance;
-    fit_options.lm.offset_tol = RELATIVE_OFFSET_TOLERANCE;
-    fit_options.lm.initial_damping = 1.0;
+    configure_search(&mut fit_options, &experiment);
 
     let mut problem = ExperimentProblem::new(experiment.clone())?;
     let n_sets = experiment.datasets.len();
@@ -207,6 +201,20 @@ pub fn analyse(experiment: Arc<Experiment>, options: &AnalysisOptions) -> Result
     analysis.derived = super::derived::derive_all(&analysis);
     analysis.thickness_scaling = super::thickness::check(&analysis);
     Ok(analysis)
+}
+
+/// The search settings of every fit of an experiment (the main fit and the refits of its
+/// checks): the experiment file's iteration limit (which also bounds the Nelder–Mead fallback,
+/// 25 simplex iterations per LM iteration: 5000 at the default 200) and relative-reduction
+/// tolerance, the relative-offset stop and a moderate initial damping (`λ₀ = s_max²`; the
+/// engine's default of 100 s_max² serves certified problems started far from their optimum,
+/// while experiment fits start from shortcut estimates or the user's values).
+pub(crate) fn configure_search(options: &mut FitOptions, experiment: &Experiment) {
+    options.lm.max_iterations = experiment.fit.maximum_iterations;
+    options.nelder_mead_iterations = 25 * experiment.fit.maximum_iterations as u64;
+    options.lm.ftol = experiment.fit.tolerance;
+    options.lm.offset_tol = RELATIVE_OFFSET_TOLERANCE;
+    options.lm.initial_damping = 1.0;
 }
 
 /// Warnings about the data as seen by the fit, beyond the identifiability checks of the

@@ -28,6 +28,7 @@ use crate::experiment::Weighting as DataWeighting;
 use crate::fit::engine::{fit, FitOptions, Weighting};
 use crate::model::Shape;
 use crate::stats::intervals::chi2_sf;
+use rayon::prelude::*;
 use std::collections::BTreeSet;
 use std::sync::Arc;
 
@@ -110,9 +111,9 @@ pub fn check(analysis: &Analysis) -> Option<ThicknessCheck> {
         return None;
     }
     groups.sort_by(|a, b| a.size.total_cmp(&b.size));
-    for g in &mut groups {
-        g.estimate = fit_group(analysis, k, &g.datasets);
-    }
+    groups
+        .par_iter_mut()
+        .for_each(|g| g.estimate = fit_group(analysis, k, &g.datasets));
     let dimension = match e.datasets[0].model_for(&analysis.fit.estimates) {
         Ok(m) if m.geometry.shape != Shape::Slab => "radius",
         _ => "thickness",
@@ -241,8 +242,7 @@ fn fit_group(
         },
         ..Default::default()
     };
-    options.lm.max_iterations = sub.fit.maximum_iterations;
-    options.lm.ftol = sub.fit.tolerance;
+    super::run::configure_search(&mut options, &sub);
     let scales: Vec<f64> = datasets
         .iter()
         .map(|&i| analysis.dataset_scales.get(i).copied().unwrap_or(1.0))

@@ -110,8 +110,14 @@ pub(crate) fn step<const ESTIMATE: bool>(
     let b2 = (1.0 - gamma) * (1.0 - gamma) / (gamma * (2.0 - gamma));
     let inv_c = 1.0 / c;
     let (jl, jd, ju) = (&bands.jl[..n], &bands.jd[..n], &bands.ju[..n]);
-    let (m, inv_w, g) = (&tw.m[..n], &tw.inv_w[..n], &tw.g[..n]);
-    let (kk, inv_v, q) = (&tw.k[..n], &tw.inv_v[..n], &tw.q[..n]);
+    let (inv_w, inv_v) = (&tw.inv_w[..n], &tw.inv_v[..n]);
+    // The multipliers of [`TwoWay`], formed where used (off the loop-carried chains):
+    // m_i = a_i/w_{i−1}, g_i = e_i/w_i, k_i = e_i/v_{i+1}, q_i = a_i/v_i with a = −c J_lower,
+    // e = −c J_upper.
+    let m = |i: usize| -c * jl[i] * inv_w[i - 1];
+    let g = |i: usize| -c * ju[i] * inv_w[i];
+    let kk = |i: usize| -c * ju[i] * inv_v[i + 1];
+    let q = |i: usize| -c * jl[i] * inv_v[i];
     let u = &mut v.u[..n];
     let u_n = &mut v.u_n[..n];
     let u_g = &mut v.u_g[..n];
@@ -129,14 +135,14 @@ pub(crate) fn step<const ESTIMATE: bool>(
     u_n[0] = u[0];
     for i in 1..n - 1 {
         let r = c * (f_n[i] + jl[i] * u[i - 1] + jd[i] * u[i] + ju[i] * u[i + 1] + src);
-        y = r - m[i] * y;
+        y = r - m(i) * y;
         z[i] = y * inv_w[i];
         u_n[i] = u[i];
     }
     {
         let i = n - 1;
         let r = c * (f_n[i] + jl[i] * u[i - 1] + jd[i] * u[i] + forcing.last_g);
-        y = r - m[i] * y;
+        y = r - m(i) * y;
         z[i] = y * inv_w[i];
         u_n[i] = u[i];
     }
@@ -154,7 +160,7 @@ pub(crate) fn step<const ESTIMATE: bool>(
     {
         // Row n − 2 of δ₁, then row n − 1 of stage 2.
         let i = n - 2;
-        d1 = z[i] - g[i] * d1;
+        d1 = z[i] - g(i) * d1;
         u_g[i] = u_n[i] + d1;
         est[i] = b2 * d1;
         if ESTIMATE {
@@ -166,7 +172,7 @@ pub(crate) fn step<const ESTIMATE: bool>(
         z[j] = y2 * inv_v[j];
     }
     for i in (0..n - 2).rev() {
-        d1 = z[i] - g[i] * d1;
+        d1 = z[i] - g(i) * d1;
         u_g[i] = u_n[i] + d1;
         est[i] = b2 * d1;
         if ESTIMATE {
@@ -174,12 +180,12 @@ pub(crate) fn step<const ESTIMATE: bool>(
         }
         let j = i + 1;
         let r = est[j] + c * (jl[j] * u_g[i] + jd[j] * u_g[j] + ju[j] * u_g[j + 1] + src);
-        y2 = r - kk[j] * y2;
+        y2 = r - kk(j) * y2;
         z[j] = y2 * inv_v[j];
     }
     {
         let r = est[0] + c * (jd[0] * u_g[0] + ju[0] * u_g[1] + forcing.first_1);
-        y2 = r - kk[0] * y2;
+        y2 = r - kk(0) * y2;
         z[0] = y2 * inv_v[0];
     }
 
@@ -197,7 +203,8 @@ pub(crate) fn step<const ESTIMATE: bool>(
     let mut sum = 0.0;
     let mut umax = 0.0f64;
     for i in 0..n {
-        d2 = z[i] - q[i] * d2;
+        let qi = if i > 0 { q(i) } else { 0.0 };
+        d2 = z[i] - qi * d2;
         let x = u_g[i] + d2;
         u[i] = x;
         sum += measures[i] * x;
@@ -206,7 +213,8 @@ pub(crate) fn step<const ESTIMATE: bool>(
         if ESTIMATE {
             umax = umax.max(x.abs());
             let r = e0 * f_n[i] - e1 * f_g[i] + e2 * f1;
-            ye = r - m[i] * ye;
+            let mi = if i > 0 { m(i) } else { 0.0 };
+            ye = r - mi * ye;
             est[i] = ye * inv_w[i];
         }
     }
@@ -230,7 +238,7 @@ pub(crate) fn step<const ESTIMATE: bool>(
         r * r
     };
     for i in (0..n - 1).rev() {
-        e = est[i] - g[i] * e;
+        e = est[i] - g(i) * e;
         est[i] = e;
         let wt = tol * (s + u[i].abs().max(u_n[i].abs()));
         let r = e / wt;

@@ -768,7 +768,15 @@ impl Solver {
                         5.0
                     };
                     let proposal = hs * fac;
-                    h = if clipped { proposal.max(h) } else { proposal };
+                    h = if clipped {
+                        proposal.max(h)
+                    } else if (1.0..1.3).contains(&fac) {
+                        // Keep the step (and the factored matrix) when it would grow only a
+                        // little: a new factorization costs more than the few extra steps.
+                        hs
+                    } else {
+                        proposal
+                    };
                 }
                 StepPlan::Fixed(m) => h = t_end / m as f64,
                 StepPlan::Replay(_) => {}

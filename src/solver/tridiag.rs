@@ -85,7 +85,8 @@ impl Factored {
 /// stepper run the back-substitution of one stage and the elimination of the next in the same
 /// sweep (see [`crate::solver::linear_step`]).
 ///
-/// With row i of the matrix `a_i x_{i−1} + d_i x_i + e_i x_{i+1}`:
+/// With row i of the matrix `a_i x_{i−1} + d_i x_i + e_i x_{i+1}` (a = −c J_lower,
+/// d = 1 − c J_diag, e = −c J_upper):
 ///
 /// ```text
 ///   LU:  w_0 = d_0,      m_i = a_i / w_{i−1},  w_i = d_i − m_i e_{i−1},   g_i = e_i / w_i
@@ -94,33 +95,31 @@ impl Factored {
 ///        y_i = r_i − k_i y_{i+1},  z_i = y_i / v_i,  x_i = z_i − q_i x_{i−1}      (up, then down)
 /// ```
 ///
-/// Every loop-carried dependency of a solve is then a single multiply-add.
+/// Only the inverted pivots 1/w_i and 1/v_i are stored; the multipliers m, g, k, q are formed
+/// where they are used, from the Jacobian bands, off the sweeps' loop-carried chains. Every
+/// loop-carried dependency of a solve is then a single multiply-add.
 #[derive(Debug, Clone, Default)]
 pub struct TwoWay {
-    /// LU multipliers m_i.
-    pub m: Vec<f64>,
+    /// c of the factored matrix I − c J.
+    pub c: f64,
     /// 1 / w_i.
     pub inv_w: Vec<f64>,
-    /// g_i = e_i / w_i.
-    pub g: Vec<f64>,
-    /// UL multipliers k_i.
-    pub k: Vec<f64>,
     /// 1 / v_i.
     pub inv_v: Vec<f64>,
-    /// q_i = a_i / v_i.
-    pub q: Vec<f64>,
+    /// Scratch: the continuants' denominators.
+    den_w: Vec<f64>,
+    den_v: Vec<f64>,
 }
 
 impl TwoWay {
     /// Workspace for n unknowns.
     pub fn with_len(n: usize) -> Self {
         TwoWay {
-            m: vec![0.0; n],
+            c: 0.0,
             inv_w: vec![0.0; n],
-            g: vec![0.0; n],
-            k: vec![0.0; n],
             inv_v: vec![0.0; n],
-            q: vec![0.0; n],
+            den_w: vec![0.0; n],
+            den_v: vec![0.0; n],
         }
     }
 
@@ -146,15 +145,14 @@ impl TwoWay {
             return false;
         }
         for v in [
-            &mut self.m,
             &mut self.inv_w,
-            &mut self.g,
-            &mut self.k,
             &mut self.inv_v,
-            &mut self.q,
+            &mut self.den_w,
+            &mut self.den_v,
         ] {
             v.resize(n, 0.0);
         }
+        self.c = c;
         if self.factor_by_continuants(c, &jl[..n], &jd[..n], &ju[..n]) {
             return true;
         }
@@ -163,27 +161,27 @@ impl TwoWay {
 
     fn factor_by_continuants(&mut self, c: f64, jl: &[f64], jd: &[f64], ju: &[f64]) -> bool {
         let n = jd.len();
-        let (m, inv_w, g) = (&mut self.m[..n], &mut self.inv_w[..n], &mut self.g[..n]);
-        let (k, inv_v, q) = (&mut self.k[..n], &mut self.inv_v[..n], &mut self.q[..n]);
+        let (inv_w, den_w) = (&mut self.inv_w[..n], &mut self.den_w[..n]);
+        let (inv_v, den_v) = (&mut self.inv_v[..n], &mut self.den_v[..n]);
         let c2 = c * c;
-        // Pass 1: continuants. inv_w[i] and inv_v[r] hold the numerators P_i, Q_r for now;
-        // g[i] and q[r] the denominators P_{i−1}, Q_{r+1} (in the same scale).
+        // Pass 1: continuants. inv_w[i] and inv_v[r] hold the numerators P_i, Q_r for now,
+        // den_w[i] and den_v[r] the denominators P_{i−1}, Q_{r+1} (in the same scale).
         let (mut p0, mut p1) = (1.0, 1.0 - c * jd[0]);
         let (mut q0, mut q1) = (1.0, 1.0 - c * jd[n - 1]);
         inv_w[0] = p1;
-        g[0] = 1.0;
+        den_w[0] = 1.0;
         inv_v[n - 1] = q1;
-        q[n - 1] = 1.0;
+        den_v[n - 1] = 1.0;
         for j in 1..n {
             let p = (1.0 - c * jd[j]) * p1 - c2 * (jl[j] * ju[j - 1]) * p0;
             inv_w[j] = p;
-            g[j] = p1;
+            den_w[j] = p1;
             p0 = p1;
             p1 = p;
             let r = n - 1 - j;
             let qq = (1.0 - c * jd[r]) * q1 - c2 * (ju[r] * jl[r + 1]) * q0;
             inv_v[r] = qq;
-            q[r] = q1;
+            den_v[r] = q1;
             q0 = q1;
             q1 = qq;
             if j % 8 == 0 {
@@ -195,39 +193,21 @@ impl TwoWay {
                 q1 *= sq;
             }
         }
-        // Pass 2: pivots as ratios, then multipliers.
+        // Pass 2: the inverted pivots as ratios.
         let mut ok = true;
         for i in 0..n {
-            let a = g[i] / inv_w[i];
-            let b = q[i] / inv_v[i];
+            let a = den_w[i] / inv_w[i];
+            let b = den_v[i] / inv_v[i];
             ok &= a.is_finite() & (a != 0.0) & b.is_finite() & (b != 0.0);
             inv_w[i] = a;
             inv_v[i] = b;
         }
-        if !ok {
-            return false;
-        }
-        m[0] = 0.0;
-        for i in 1..n {
-            m[i] = -c * jl[i] * inv_w[i - 1];
-        }
-        for i in 0..n - 1 {
-            g[i] = -c * ju[i] * inv_w[i];
-            k[i] = -c * ju[i] * inv_v[i + 1];
-        }
-        g[n - 1] = 0.0;
-        k[n - 1] = 0.0;
-        q[0] = 0.0;
-        for i in 1..n {
-            q[i] = -c * jl[i] * inv_v[i];
-        }
-        true
+        ok
     }
 
     fn factor_by_recurrence(&mut self, c: f64, jl: &[f64], jd: &[f64], ju: &[f64]) -> bool {
         let n = jd.len();
-        let (m, inv_w, g) = (&mut self.m[..n], &mut self.inv_w[..n], &mut self.g[..n]);
-        let (k, inv_v, q) = (&mut self.k[..n], &mut self.inv_v[..n], &mut self.q[..n]);
+        let (inv_w, inv_v) = (&mut self.inv_w[..n], &mut self.inv_v[..n]);
         // Both recurrences advance in one loop: LU at row j, UL at row n − 1 − j.
         let mut w = 1.0 - c * jd[0];
         let mut v = 1.0 - c * jd[n - 1];
@@ -236,28 +216,14 @@ impl TwoWay {
         let mut iv = 1.0 / v;
         inv_w[0] = iw;
         inv_v[n - 1] = iv;
-        m[0] = 0.0;
-        k[n - 1] = 0.0;
-        g[n - 1] = 0.0;
-        q[0] = 0.0;
         for j in 1..n {
-            // LU, row j.
-            let e_prev = -c * ju[j - 1];
-            let a = -c * jl[j];
-            g[j - 1] = e_prev * iw;
-            let mj = a * iw;
-            m[j] = mj;
-            w = (1.0 - c * jd[j]) - mj * e_prev;
+            // LU, row j: w_j = d_j − a_j e_{j−1} / w_{j−1}.
+            w = (1.0 - c * jd[j]) - (c * jl[j]) * (c * ju[j - 1]) * iw;
             iw = 1.0 / w;
             inv_w[j] = iw;
-            // UL, row r = n − 1 − j.
+            // UL, row r = n − 1 − j: v_r = d_r − e_r a_{r+1} / v_{r+1}.
             let r = n - 1 - j;
-            let a_next = -c * jl[r + 1];
-            let e = -c * ju[r];
-            q[r + 1] = a_next * iv;
-            let kr = e * iv;
-            k[r] = kr;
-            v = (1.0 - c * jd[r]) - kr * a_next;
+            v = (1.0 - c * jd[r]) - (c * ju[r]) * (c * jl[r + 1]) * iv;
             iv = 1.0 / v;
             inv_v[r] = iv;
             ok &= w.is_finite() & (w != 0.0) & v.is_finite() & (v != 0.0);
@@ -265,36 +231,38 @@ impl TwoWay {
         ok
     }
 
-    /// Solve in place by LU (down, then up); `x` holds the right-hand side on entry.
-    pub fn solve_lu(&self, x: &mut [f64]) {
+    /// Solve in place by LU (down, then up) for the bands the matrix was factored from; `x`
+    /// holds the right-hand side on entry.
+    pub fn solve_lu(&self, jl: &[f64], ju: &[f64], x: &mut [f64]) {
         let n = x.len();
-        let (m, inv_w, g) = (&self.m[..n], &self.inv_w[..n], &self.g[..n]);
+        let (c, inv_w) = (self.c, &self.inv_w[..n]);
         let mut y = x[0];
         x[0] = y * inv_w[0];
         for i in 1..n {
-            y = x[i] - m[i] * y;
+            y = x[i] + c * jl[i] * inv_w[i - 1] * y;
             x[i] = y * inv_w[i];
         }
         let mut next = x[n - 1];
         for i in (0..n - 1).rev() {
-            next = x[i] - g[i] * next;
+            next = x[i] + c * ju[i] * inv_w[i] * next;
             x[i] = next;
         }
     }
 
-    /// Solve in place by UL (up, then down); `x` holds the right-hand side on entry.
-    pub fn solve_ul(&self, x: &mut [f64]) {
+    /// Solve in place by UL (up, then down) for the bands the matrix was factored from; `x`
+    /// holds the right-hand side on entry.
+    pub fn solve_ul(&self, jl: &[f64], ju: &[f64], x: &mut [f64]) {
         let n = x.len();
-        let (k, inv_v, q) = (&self.k[..n], &self.inv_v[..n], &self.q[..n]);
+        let (c, inv_v) = (self.c, &self.inv_v[..n]);
         let mut y = x[n - 1];
         x[n - 1] = y * inv_v[n - 1];
         for i in (0..n - 1).rev() {
-            y = x[i] - k[i] * y;
+            y = x[i] + c * ju[i] * inv_v[i + 1] * y;
             x[i] = y * inv_v[i];
         }
         let mut prev = x[0];
         for i in 1..n {
-            prev = x[i] - q[i] * prev;
+            prev = x[i] + c * jl[i] * inv_v[i] * prev;
             x[i] = prev;
         }
     }
@@ -388,9 +356,9 @@ mod tests {
         let mut tw = TwoWay::with_len(n);
         assert!(tw.factor(c, &jl, &jd, &ju));
         let mut a = r.clone();
-        tw.solve_lu(&mut a);
+        tw.solve_lu(&jl, &ju, &mut a);
         let mut b = r.clone();
-        tw.solve_ul(&mut b);
+        tw.solve_ul(&jl, &ju, &mut b);
         for i in 0..n {
             assert!(
                 (a[i] - x[i]).abs() < 1e-13,
@@ -417,8 +385,6 @@ mod tests {
             for (a, b) in [
                 (fast.inv_w[i], slow.inv_w[i]),
                 (fast.inv_v[i], slow.inv_v[i]),
-                (fast.m[i], slow.m[i]),
-                (fast.q[i], slow.q[i]),
             ] {
                 assert!((a - b).abs() <= 1e-12 * b.abs(), "row {i}: {a} vs {b}");
             }

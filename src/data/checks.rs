@@ -8,75 +8,94 @@
 //! for uptake curves) also triggers it; the warning is then informational.
 //!
 //! **Outliers.** A point is reported when it lies far from a smooth curve through its
-//! neighbours and no step or corner in the data explains it. The aim is a gross error — a
+//! neighbours and no step or bend in the data explains it. The aim is a gross error — a
 //! typing error (a value ×10, two digits swapped, a lost minus sign) or a glitch — with
 //! essentially no false alarm on clean data. Points are taken in the order of their series
 //! (by time, or by depth for a profile), `x_i` is the time or position, `y_i` the value.
 //! Series with fewer than [`MIN_POINTS_FOR_OUTLIERS`] points are not judged.
 //!
 //! 1. *Reference curve.* For point `i` a quadratic is fitted by least squares to its eight
-//!    nearest neighbours in series order (four on each side, the window shifted near the ends;
-//!    all other points when there are fewer), **leaving the point itself out**, and evaluated at
-//!    `x_i`: a Savitzky–Golay-type local polynomial. The prediction is linear in the data,
-//!    `ẑ_i = Σ_j w_ij z_j`, so under white noise of standard deviation σ the deleted residual
-//!    `r_i = z_i − ẑ_i` has variance `σ² (1 + Σ_j w_ij²)`; it is standardised,
-//!    `c_i = r_i / √(1 + Σ_j w_ij²)`, so extrapolated end points are judged on the same footing
-//!    as interior ones. (A running median, used before, returns the point itself on any
-//!    monotone stretch; most residuals were then exactly zero, the noise scale collapsed and
-//!    plain noise near the knee of a curve was reported.)
+//!    nearest neighbours in series order (four on each side, more from one side near the
+//!    ends), **leaving the point itself out**, and evaluated at `x_i`: a Savitzky–Golay-type
+//!    local polynomial. The prediction is linear in the data, `ẑ_i = Σ_j w_ij z_j`, so under
+//!    white noise of standard deviation σ the deleted residual `r_i = z_i − ẑ_i` has variance
+//!    `σ² (1 + Σ_j w_ij²)`; it is standardised, `c_i = r_i / √(1 + Σ_j w_ij²)`, so extrapolated
+//!    end points are judged on the same footing as interior ones. (A running median, used
+//!    before, returns the point itself on any monotone stretch; most residuals were then
+//!    exactly zero, the noise scale collapsed and plain noise near the knee of a curve was
+//!    reported.)
 //! 2. *Abscissa and value scale.* The fits are made against the recorded `x` and against the
-//!    point number; the one giving the smaller noise scale (step 3) is used, so logarithmically
-//!    sampled curves (smooth in the point number) and irregular gaps (smooth in `x`) are both
-//!    followed. When every value is positive and they span more than two decades (depth
-//!    profiles), `z = √y` and `z = ln y` are tried besides `z = y`, and the scale is used in
-//!    which the residual spread of the smaller and the larger half of the values is most
-//!    alike: `ln y` for errors proportional to the value, `y` for a constant error.
-//! 3. *Noise scale.* `σ̂ = 1.4826 · median|c − median(c)|` (MAD) over the series. A point uses
-//!    the larger of `σ̂` and the same estimate over its own half of the values (by size), so a
-//!    noisier half does not raise warnings. When the MAD is zero (most points exactly on a
-//!    polynomial), `1.2533 · mean|c − median(c)|` is used; when that is zero too (a constant
-//!    or exactly polynomial series) nothing is reported.
-//! 4. *Threshold.* A point is a candidate when `|c_i − median(c)| > k σ̂` with
+//!    point number, and a point is reported only when it is far on both: logarithmically
+//!    sampled curves are smooth in the point number, irregular gaps in `x`. (Uniform `x` is
+//!    the point number; with repeated readings at one `x` only `x` is used.) When every value
+//!    is positive and they span more than two decades (depth profiles), `z = √y` and
+//!    `z = ln y` are tried besides `z = y`, and the scale is used in which the residual
+//!    spread of the smaller and the larger half of the values is most alike: `ln y` for
+//!    errors proportional to the value, `y` for a constant error (Box–Cox power transforms).
+//! 3. *Noise scale.* `σ̂ = 1.4826 · median|c − median(c)|` (MAD) over the series. When each
+//!    half of the values (by size) has at least ten residuals, a point uses the larger of the
+//!    series bar (step 4) and the bar from its own half, so a noisier half does not raise
+//!    warnings.
+//!    When the MAD is zero, `1.2533 · mean|c − median(c)|` is used; when that is zero too (a
+//!    constant or exactly polynomial series) nothing is reported, and deviations below
+//!    `1e-10` of the largest value count as rounding.
+//! 4. *Threshold.* A point is far when `|c_i − median(c)| > k σ̂` with
 //!    `k = 5 (1 + 2 · 1.17/√m)` ([`OUTLIER_SIGMAS`] = 5), `m` the number of residuals behind
-//!    the scale used. For Gaussian noise `P(|Z| > 5) = 5.7e-7`, about one false alarm per
-//!    1700 files of 1000 points if σ were known. `σ̂` from `m` residuals has a relative standard
-//!    error near `1.17/√m` (the MAD's asymptotic efficiency is 37 %); the factor raises the bar
-//!    by two such standard errors, so that a scale estimate that comes out low by chance does
-//!    not turn noise into warnings in short series (`k` = 9.4 for 7 points, 6.7 for 50, 5.5 for
-//!    500).
-//! 5. *Steps and corners.* Near a real step (a heater switched on, an interface in a layered
-//!    sample) or corner (the end of a ramp) the centred fit fails. Each point is therefore also
-//!    predicted from each side alone: `L_i` from the five points before it, `R_i` from the five
-//!    after it (quadratic; linear with three or four points; no prediction with fewer), as in
-//!    split linear fits. When the two sides disagree, `|L_i − R_i| > k σ̂ √(Σw_L² + Σw_R²)`,
-//!    there is a break at `i`, and the point is not reported if it lies between `L_i` and `R_i`
-//!    or within `k σ̂ √(1 + Σw²)` of either. An isolated error is unlike both sides and is
-//!    still reported. Two or more consecutive errors of similar size look like a short step
-//!    and may not be; so may an error in the first or last point right next to a step.
-//! 6. *Resolution.* A point within two units of the last recorded digit of its reference value
-//!    is never reported (the digit is inferred from the values: the coarsest power of ten of
-//!    which every value is a whole multiple), so a logger that rounds to 0.1 °C does not warn
-//!    when one reading moves by one step on an otherwise flat trace.
+//!    the scale. For Gaussian noise `P(|Z| > 5) = 5.7e-7`, about one false alarm per 1700
+//!    files of 1000 points if σ were known. `σ̂` from `m` residuals has a relative standard
+//!    error near `1.17/√m` (the MAD's asymptotic efficiency is 37 %); the factor raises the
+//!    bar by two such standard errors, so that a scale estimate that comes out low by chance
+//!    does not turn noise into warnings in short series (`k` = 9.4 for 7 points, 6.7 for 50,
+//!    5.5 for 500).
+//! 5. *Unresolved bends and steps.* A fit through neighbours cannot follow a real step (a
+//!    heater switched on, an interface in a layered sample), a corner (the end of a ramp) or
+//!    a bend sharper than the sampling. A point is therefore not reported when its deviation
+//!    `|z_i − ẑ_i|` is no larger than the largest second difference of its neighbours' values
+//!    (in series order, the point itself skipped, repeated readings at one `x` averaged); for
+//!    the first and last point, whose reference is extrapolated and where a series often
+//!    starts at a bend (the step change at `t = 0` itself), no larger than the change across
+//!    the neighbours (largest less smallest value) times `max(1, √(Σ_j w_ij²))`.
+//! 6. *Resolution.* A point within two units of the last recorded digit of its reference
+//!    value is never reported (the digit is inferred from the values: the coarsest power of
+//!    ten of which all differences between values are whole multiples), so a logger that
+//!    rounds to 0.1 °C does not warn when one reading moves by a step on a flat trace.
+//! 7. *One error must not hide itself.* A gross error enters the fits of its eight
+//!    neighbours and inflates their residuals and `σ̂`. Suspects are therefore set aside one
+//!    at a time (up to a fifth of the points, 2 to [`MAX_OUTLIER_WARNINGS`]): the next suspect
+//!    is the point with the largest *resistant* residual (the smallest of the residuals from
+//!    fits that also leave out one of its neighbours) beyond three robust standard
+//!    deviations. Suspects that are far (steps 1–6) with all suspects set aside are
+//!    confirmed; the others go back, and every point is judged (steps 1–6) with only the
+//!    confirmed ones set aside.
 //!
 //! At most [`MAX_OUTLIER_WARNINGS`] points are named per series; the rest are counted in one
 //! further warning. The false-alarm and detection rates on seeded synthetic curves are
-//! asserted in this module's tests.
+//! asserted in this module's tests (0 false alarms in 3200 clean series of 16 kinds; 98.6 %
+//! of planted gross errors found). With 3000 series of each kind the false alarms were 0 for
+//! 14 kinds and 3 and 8 series for the two depth profiles over three decades that level off
+//! at a background (a bend the fit follows poorly in the log scale). Known blind spots,
+//! measured there: an error within four
+//! points of a real step or at the end of a steep ramp; an error in the tail of a profile
+//! spanning decades when a lost minus sign forces the linear scale; a digit swap of a factor
+//! below about 2 where the curve is sampled too coarsely for a quadratic to follow; two or
+//! more consecutive errors of similar size, which look like a short step.
 //!
 //! References (all from memory): A. Savitzky and M. J. E. Golay, "Smoothing and
 //! differentiation of data by simplified least squares procedures", Anal. Chem. 36 (1964)
 //! 1627–1639 (local polynomial fits); W. S. Cleveland, "Robust locally weighted regression and
 //! smoothing scatterplots", J. Amer. Statist. Assoc. 74 (1979) 829–836 (local regression with
 //! nearest-neighbour windows); R. D. Cook and S. Weisberg, *Residuals and Influence in
-//! Regression*, Chapman & Hall 1982 (deleted residuals and their variance); J. A. McDonald and
-//! A. B. Owen, "Smoothing with split linear fits", Technometrics 28 (1986) 195–208 (left,
-//! right and centred fits to keep steps); G. E. P. Box and D. R. Cox, "An analysis of
-//! transformations", J. R. Statist. Soc. B 26 (1964) 211–252 (power transforms of the
-//! values); F. R. Hampel, "The influence curve and its role in robust estimation", J. Amer.
-//! Statist. Assoc. 69 (1974) 383–393 (median/MAD identifier); P. J. Rousseeuw and C. Croux,
-//! J. Amer. Statist. Assoc. 88 (1993) 1273–1283 (1.4826 consistency factor, 37 % efficiency
-//! of the MAD). The mean-absolute-deviation fallback (1.2533 = √(π/2)), the doubling of the
-//! standard error in `k` and the two-digit resolution rule are common practice or choices of
-//! this module, checked by the tests.
+//! Regression*, Chapman & Hall 1982 (deleted residuals and their variance); G. E. P. Box and
+//! D. R. Cox, "An analysis of transformations", J. R. Statist. Soc. B 26 (1964) 211–252
+//! (power transforms of the values); F. R. Hampel, "The influence curve and its role in
+//! robust estimation", J. Amer. Statist. Assoc. 69 (1974) 383–393 (median/MAD identifier);
+//! P. J. Rousseeuw and C. Croux, J. Amer. Statist. Assoc. 88 (1993) 1273–1283 (1.4826
+//! consistency factor, 37 % efficiency of the MAD); B. Rosner, "Percentage points for a
+//! generalized ESD many-outlier procedure", Technometrics 25 (1983) 165–172 (removing
+//! suspects one at a time against masking). The mean-absolute-deviation fallback
+//! (1.2533 = √(π/2)), the doubled standard error in `k`, the second-difference allowance,
+//! the three-σ suspect bar and the two-digit resolution rule are common practice or choices
+//! of this module, checked by the tests.
 
 use crate::error::Location;
 
@@ -605,13 +624,12 @@ impl<'a> Judge<'a> {
             return None;
         }
         let (s_half, m_half) = self.halves[usize::from(*self.upper.get(i)?)];
-        let global = (self.sigma, outlier_threshold(self.count));
-        let local = (s_half, outlier_threshold(m_half));
-        let (s_used, k_used) = if m_half >= MIN_HALF && local.0 * local.1 > global.0 * global.1 {
-            local
-        } else {
-            global
-        };
+        let mut used = (self.sigma, outlier_threshold(self.count));
+        let k_half = outlier_threshold(m_half);
+        if m_half >= MIN_HALF && s_half * k_half > used.0 * used.1 {
+            used = (s_half, k_half);
+        }
+        let (s_used, k_used) = used;
         Some(((ci - self.centre).abs() / s_used, k_used))
     }
 

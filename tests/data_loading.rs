@@ -353,6 +353,49 @@ fn warnings_for_an_outlier_and_for_irregular_sampling() {
     );
 }
 
+#[test]
+fn heater_step_is_no_outlier_but_a_typing_error_beside_it_is() {
+    // Invented log: a heater face switched from 20 to 90 degC at 300 s (a real step), a
+    // thermocouple warming smoothly, 10 s readings printed to 0.01 degC with small
+    // deterministic wiggles; one reading of the thermocouple, 35.1x at 490 s, typed with its
+    // first two digits swapped (53.1x) on line 52 (header on line 2).
+    let mut text = String::from("# invented bench log\ntime [s],heater [degC],T1 [degC]\n");
+    for k in 0..120 {
+        let t = 10.0 * k as f64;
+        let heater = if t < 300.0 { 20.0 } else { 90.0 } + 0.05 * (1.7 * k as f64).sin();
+        let mut t1 = 20.0
+            + 40.0 * (1.0 - (-(t - 300.0).max(0.0) / 400.0).exp())
+            + 0.04 * (2.3 * k as f64).cos();
+        if k == 49 {
+            assert!((35.0..36.0).contains(&t1), "{t1}");
+            t1 += 18.0;
+        }
+        text.push_str(&format!("{t},{heater:.2},{t1:.2}\n"));
+    }
+    let dir = tempfile::tempdir().unwrap_or_else(|e| panic!("{e}"));
+    let path = dir.path().join("bench.csv");
+    std::fs::write(&path, text).unwrap_or_else(|e| panic!("{e}"));
+    let pos = |name: &str, x: f64| SensorSpec {
+        column: ColumnSpec::new(name),
+        position: Some(x),
+    };
+    let cols = SensorColumns {
+        time: ColumnSpec::new("time"),
+        sensors: vec![pos("heater", 0.0), pos("T1", 0.02)],
+    };
+    let l = data::read_sensor_table(&path, &cols, &ReadOptions::default())
+        .unwrap_or_else(|e| panic!("{e}"));
+    let out: Vec<_> = l
+        .warnings
+        .iter()
+        .filter(|w| w.kind == WarningKind::Outlier)
+        .collect();
+    assert_eq!(out.len(), 1, "{:?}", l.warnings);
+    assert_eq!(out[0].location.line, Some(52));
+    assert_eq!(out[0].location.column.as_deref(), Some("T1 [degC]"));
+    assert!(out[0].message.contains("value 53.1"), "{}", out[0].message);
+}
+
 // ------------------------------------------------------------------------- errors, located
 
 fn check_no_line(e: &Error, kind: InputKind, column: Option<&str>) {

@@ -7,24 +7,95 @@
 //! the lines of the shortest and the longest step. Deliberately logarithmic sampling (common
 //! for uptake curves) also triggers it; the warning is then informational.
 //!
-//! **Outliers.** Each point `y_i` (in the order of its series: by time, or by position for a
-//! profile) is compared with the median of itself and up to two neighbours on each side
-//! (a symmetric window of 5, shrunk near the ends; the first and last point cannot be
-//! judged). The residuals `r_i = y_i − median(window_i)` are zero on any monotone stretch and
-//! follow the noise elsewhere. Their robust standard deviation is
-//! `σ = 1.4826 · median|r − median(r)|` (MAD); when the MAD is zero (more than half the
-//! residuals equal), `σ = 1.2533 · mean|r − median(r)|` is used instead, and when that is
-//! zero too nothing is flagged. A point with `|r_i − median(r)| > 5 σ` is reported. Series
-//! with fewer than 5 points are not checked. At most [`MAX_OUTLIER_WARNINGS`] points are
-//! named per series; the rest are counted in one further warning.
+//! **Outliers.** A point is reported when it lies far from a smooth curve through its
+//! neighbours and no step or bend in the data explains it. The aim is a gross error — a
+//! typing error (a value ×10, two digits swapped, a lost minus sign) or a glitch — with
+//! essentially no false alarm on clean data. Points are taken in the order of their series
+//! (by time, or by depth for a profile), `x_i` is the time or position, `y_i` the value.
+//! Series with fewer than [`MIN_POINTS_FOR_OUTLIERS`] points are not judged.
 //!
-//! References: F. R. Hampel, "The influence curve and its role in robust estimation",
-//! J. Amer. Statist. Assoc. 69 (1974) 383–393 (median/MAD identifier); R. K. Pearson,
-//! "Outliers in process modeling and identification", IEEE Trans. Control Syst. Technol. 10
-//! (2002) 55–63 (running-median Hampel filter); P. J. Rousseeuw and C. Croux, J. Amer.
-//! Statist. Assoc. 88 (1993) 1273–1283 (1.4826 consistency factor); B. Iglewicz and D. C.
-//! Hoaglin, *How to Detect and Handle Outliers*, ASQC 1993 (modified z-score, the 1.2533
-//! mean-absolute-deviation fallback is common practice) — all from memory.
+//! 1. *Reference curve.* For point `i` a quadratic is fitted by least squares to its eight
+//!    nearest neighbours in series order (four on each side, more from one side near the
+//!    ends), **leaving the point itself out**, and evaluated at `x_i`: a Savitzky–Golay-type
+//!    local polynomial. The prediction is linear in the data, `ẑ_i = Σ_j w_ij z_j`, so under
+//!    white noise of standard deviation σ the deleted residual `r_i = z_i − ẑ_i` has variance
+//!    `σ² (1 + Σ_j w_ij²)`; it is standardised, `c_i = r_i / √(1 + Σ_j w_ij²)`, so extrapolated
+//!    end points are judged on the same footing as interior ones. (A running median, used
+//!    before, returns the point itself on any monotone stretch; most residuals were then
+//!    exactly zero, the noise scale collapsed and plain noise near the knee of a curve was
+//!    reported.)
+//! 2. *Abscissa and value scale.* The fits are made against the recorded `x` and against the
+//!    point number, and a point is reported only when it is far on both: logarithmically
+//!    sampled curves are smooth in the point number, irregular gaps in `x`. (Uniform `x` is
+//!    the point number; with repeated readings at one `x` only `x` is used.) When every value
+//!    is positive and they span more than two decades (depth profiles), `z = √y` and
+//!    `z = ln y` are tried besides `z = y`, and the scale is used in which the residual
+//!    spread of the smaller and the larger half of the values is most alike: `ln y` for
+//!    errors proportional to the value, `y` for a constant error (Box–Cox power transforms).
+//! 3. *Noise scale.* `σ̂ = 1.4826 · median|c − median(c)|` (MAD) over the series. When each
+//!    half of the values (by size) has at least ten residuals, a point uses the larger of the
+//!    series bar (step 4) and the bar from its own half, so a noisier half does not raise
+//!    warnings.
+//!    When the MAD is zero, `1.2533 · mean|c − median(c)|` is used; when that is zero too (a
+//!    constant or exactly polynomial series) nothing is reported, and deviations below
+//!    `1e-10` of the largest value count as rounding.
+//! 4. *Threshold.* A point is far when `|c_i − median(c)| > k σ̂` with
+//!    `k = 5 (1 + 2 · 1.17/√m)` ([`OUTLIER_SIGMAS`] = 5), `m` the number of residuals behind
+//!    the scale. For Gaussian noise `P(|Z| > 5) = 5.7e-7`, about one false alarm per 1700
+//!    files of 1000 points if σ were known. `σ̂` from `m` residuals has a relative standard
+//!    error near `1.17/√m` (the MAD's asymptotic efficiency is 37 %); the factor raises the
+//!    bar by two such standard errors, so that a scale estimate that comes out low by chance
+//!    does not turn noise into warnings in short series (`k` = 9.4 for 7 points, 6.7 for 50,
+//!    5.5 for 500).
+//! 5. *Unresolved bends and steps.* A fit through neighbours cannot follow a real step (a
+//!    heater switched on, an interface in a layered sample), a corner (the end of a ramp) or
+//!    a bend sharper than the sampling. A point is therefore not reported when its deviation
+//!    `|z_i − ẑ_i|` is no larger than the largest second difference of its neighbours' values
+//!    (in series order, the point itself skipped, repeated readings at one `x` averaged); for
+//!    the first and last point, whose reference is extrapolated and where a series often
+//!    starts at a bend (the step change at `t = 0` itself), no larger than the change across
+//!    the neighbours (largest less smallest value) times `max(1, √(Σ_j w_ij²))`.
+//! 6. *Resolution.* A point within two units of the last recorded digit of its reference
+//!    value is never reported (the digit is inferred from the values: the coarsest power of
+//!    ten of which all differences between values are whole multiples), so a logger that
+//!    rounds to 0.1 °C does not warn when one reading moves by a step on a flat trace.
+//! 7. *One error must not hide itself.* A gross error enters the fits of its eight
+//!    neighbours and inflates their residuals and `σ̂`. Suspects are therefore set aside one
+//!    at a time (up to a fifth of the points, 2 to [`MAX_OUTLIER_WARNINGS`]): the next suspect
+//!    is the point with the largest *resistant* residual (the smallest of the residuals from
+//!    fits that also leave out one of its neighbours) beyond three robust standard
+//!    deviations. Suspects that are far (steps 1–6) with all suspects set aside are
+//!    confirmed; the others go back, and every point is judged (steps 1–6) with only the
+//!    confirmed ones set aside.
+//!
+//! At most [`MAX_OUTLIER_WARNINGS`] points are named per series; the rest are counted in one
+//! further warning. The false-alarm and detection rates on seeded synthetic curves are
+//! asserted in this module's tests (0 false alarms in 3200 clean series of 16 kinds; 98.6 %
+//! of planted gross errors found). With 3000 series of each kind the false alarms were 0 for
+//! 14 kinds and 3 and 8 series for the two depth profiles over three decades that level off
+//! at a background (a bend the fit follows poorly in the log scale). Known blind spots,
+//! measured there: an error within four
+//! points of a real step or at the end of a steep ramp; an error in the tail of a profile
+//! spanning decades when a lost minus sign forces the linear scale; a digit swap of a factor
+//! below about 2 where the curve is sampled too coarsely for a quadratic to follow; two or
+//! more consecutive errors of similar size, which look like a short step.
+//!
+//! References (all from memory): A. Savitzky and M. J. E. Golay, "Smoothing and
+//! differentiation of data by simplified least squares procedures", Anal. Chem. 36 (1964)
+//! 1627–1639 (local polynomial fits); W. S. Cleveland, "Robust locally weighted regression and
+//! smoothing scatterplots", J. Amer. Statist. Assoc. 74 (1979) 829–836 (local regression with
+//! nearest-neighbour windows); R. D. Cook and S. Weisberg, *Residuals and Influence in
+//! Regression*, Chapman & Hall 1982 (deleted residuals and their variance); G. E. P. Box and
+//! D. R. Cox, "An analysis of transformations", J. R. Statist. Soc. B 26 (1964) 211–252
+//! (power transforms of the values); F. R. Hampel, "The influence curve and its role in
+//! robust estimation", J. Amer. Statist. Assoc. 69 (1974) 383–393 (median/MAD identifier);
+//! P. J. Rousseeuw and C. Croux, J. Amer. Statist. Assoc. 88 (1993) 1273–1283 (1.4826
+//! consistency factor, 37 % efficiency of the MAD); B. Rosner, "Percentage points for a
+//! generalized ESD many-outlier procedure", Technometrics 25 (1983) 165–172 (removing
+//! suspects one at a time against masking). The mean-absolute-deviation fallback
+//! (1.2533 = √(π/2)), the doubled standard error in `k`, the second-difference allowance,
+//! the three-σ suspect bar and the two-digit resolution rule are common practice or choices
+//! of this module, checked by the tests.
 
 use crate::error::Location;
 
@@ -33,11 +104,43 @@ use super::{Warning, WarningKind};
 /// Ratio of the longest to the shortest time step above which sampling is called irregular.
 pub const IRREGULAR_STEP_RATIO: f64 = 100.0;
 
-/// Number of robust standard deviations beyond which a point is reported as an outlier.
+/// Number of robust standard deviations beyond which a point is reported as an outlier, for
+/// a long series; shorter series use a higher bar (module docs, step 4).
 pub const OUTLIER_SIGMAS: f64 = 5.0;
+
+/// Series with fewer points are not checked for outliers.
+pub const MIN_POINTS_FOR_OUTLIERS: usize = 7;
 
 /// Most outliers named one by one per series.
 pub const MAX_OUTLIER_WARNINGS: usize = 10;
+
+/// Neighbours on each side of a point in its centred fit.
+const HALF_WINDOW: usize = 4;
+
+/// MAD to standard deviation for Gaussian data (Rousseeuw and Croux 1993).
+const MAD_TO_SIGMA: f64 = 1.4826;
+
+/// Mean absolute deviation to standard deviation for Gaussian data, √(π/2).
+const MEAN_AD_TO_SIGMA: f64 = 1.2533;
+
+/// Relative standard error of a MAD-based σ from `m` residuals, times √m (Gaussian data).
+const MAD_RELATIVE_SE: f64 = 1.17;
+
+/// A point is a suspect (module docs, step 7) when its resistant residual is more than this
+/// many robust standard deviations from the median.
+const SUSPECT_SIGMAS: f64 = 3.0;
+
+/// Each half of the values needs this many residuals before its own noise scale is used.
+const MIN_HALF: usize = 10;
+
+/// Values must span more than this ratio before √y and ln y are tried.
+const DECADES_RATIO: f64 = 100.0;
+
+/// Deviations below this fraction of the largest value are rounding in the fit.
+const ROUNDING: f64 = 1e-10;
+
+/// A point this many resolution steps or fewer from its reference is never reported.
+const RESOLUTION_STEPS: f64 = 2.0;
 
 /// Warn when the time steps of `time` (strictly increasing, s) vary by more than
 /// [`IRREGULAR_STEP_RATIO`]. `loc(i)` gives the location of point `i`; `what` names the series.
@@ -82,7 +185,7 @@ pub(crate) fn irregular_sampling(
     }
 }
 
-/// Median of a small or large slice (copied; NaN-free input).
+/// Median of a slice (reordered in place; NaN-free input). 0 for an empty slice.
 fn median(v: &mut [f64]) -> f64 {
     let n = v.len();
     if n == 0 {
@@ -99,73 +202,667 @@ fn median(v: &mut [f64]) -> f64 {
     }
 }
 
-/// Indices of the points of `y` (in series order) that lie more than [`OUTLIER_SIGMAS`]
-/// robust standard deviations from the running median of their neighbours (module docs).
-pub fn outlier_indices(y: &[f64]) -> Vec<usize> {
-    let n = y.len();
-    if n < 5 {
-        return Vec::new();
-    }
-    let mut resid = Vec::with_capacity(n - 2);
-    let mut win = [0.0f64; 5];
-    for i in 1..n - 1 {
-        let half = 2.min(i).min(n - 1 - i);
-        let w = &mut win[..2 * half + 1];
-        w.copy_from_slice(&y[i - half..=i + half]);
-        w.sort_unstable_by(f64::total_cmp);
-        resid.push(y[i] - w[half]);
-    }
-    let mut tmp = resid.clone();
-    let med = median(&mut tmp);
-    for (t, r) in tmp.iter_mut().zip(&resid) {
-        *t = (r - med).abs();
-    }
-    let mut sigma = 1.4826 * median(&mut tmp);
-    if sigma <= 0.0 {
-        let mean_ad = tmp.iter().sum::<f64>() / tmp.len() as f64;
-        sigma = 1.2533 * mean_ad;
-    }
-    if sigma.is_nan() || sigma <= 0.0 {
-        return Vec::new();
-    }
-    resid
-        .iter()
-        .enumerate()
-        .filter(|(_, r)| (*r - med).abs() > OUTLIER_SIGMAS * sigma)
-        .map(|(k, _)| k + 1)
-        .collect()
+/// The bar `k(m) = 5 (1 + 2 · 1.17/√m)`, in robust standard deviations, for a noise scale
+/// estimated from `m` residuals (module docs, step 4).
+pub fn outlier_threshold(m: usize) -> f64 {
+    OUTLIER_SIGMAS * (1.0 + 2.0 * MAD_RELATIVE_SE / (m.max(1) as f64).sqrt())
 }
 
-/// Outlier warnings for `y` (series order); `loc(i)` locates point `i`, `show(i)` formats
-/// its value for the message.
+/// Robust scale of `v` about its own median: 1.4826 · MAD, or 1.2533 · mean absolute
+/// deviation when the MAD is zero. Returns (scale, median).
+fn robust_scale(v: &[f64]) -> (f64, f64) {
+    let mut tmp = v.to_vec();
+    let med = median(&mut tmp);
+    for (t, x) in tmp.iter_mut().zip(v) {
+        *t = (x - med).abs();
+    }
+    let mut s = MAD_TO_SIGMA * median(&mut tmp);
+    if s <= 0.0 && !tmp.is_empty() {
+        s = MEAN_AD_TO_SIGMA * tmp.iter().sum::<f64>() / tmp.len() as f64;
+    }
+    (s, med)
+}
+
+/// A linear prediction `Σ_j w_j z_j` of one point from others, with `Σ_j w_j²`.
+#[derive(Debug, Clone, Copy)]
+struct Prediction {
+    value: f64,
+    weight_sq: f64,
+}
+
+/// Least-squares polynomial of degree at most `degree` through the points `(u_j, z_j)`,
+/// evaluated at `u = 0`. The degree is lowered when the abscissae do not determine it (too
+/// few distinct values, or a near-singular normal matrix). `None` with no point.
+fn predict_at_zero(u: &[f64], z: &[f64], degree: usize) -> Option<Prediction> {
+    let n = u.len().min(z.len());
+    if n == 0 {
+        return None;
+    }
+    let span = u.iter().fold(0.0f64, |a, &v| a.max(v.abs()));
+    let span = if span > 0.0 && span.is_finite() {
+        span
+    } else {
+        1.0
+    };
+    let mut s = [0.0f64; 2 * HALF_WINDOW + 1];
+    let s = &mut s[..n.min(2 * HALF_WINDOW + 1)];
+    for (sj, &uj) in s.iter_mut().zip(u) {
+        *sj = uj / span;
+    }
+    let mut sorted = [0.0f64; 2 * HALF_WINDOW + 1];
+    let sorted = &mut sorted[..s.len()];
+    sorted.copy_from_slice(s);
+    sorted.sort_unstable_by(f64::total_cmp);
+    let distinct = 1 + sorted.windows(2).filter(|w| w[1] - w[0] > 1e-9).count();
+    let mut d = degree.min(distinct - 1).min(2);
+    loop {
+        if let Some(v) = solve_normal(s, d) {
+            let mut value = 0.0;
+            let mut weight_sq = 0.0;
+            for (&sj, &zj) in s.iter().zip(z) {
+                let w = v[0] + v[1] * sj + v[2] * sj * sj;
+                value += w * zj;
+                weight_sq += w * w;
+            }
+            return Some(Prediction { value, weight_sq });
+        }
+        if d == 0 {
+            return None;
+        }
+        d -= 1;
+    }
+}
+
+/// `G⁻¹ e₀` for the normal matrix `G_ab = Σ_j s_j^(a+b)`, a, b ≤ `d` ≤ 2, padded with zeros
+/// to length 3; `None` when a pivot is negligible.
+fn solve_normal(s: &[f64], d: usize) -> Option<[f64; 3]> {
+    let m = d + 1;
+    let mut power = [0.0f64; 5];
+    for &sj in s {
+        let mut p = 1.0;
+        for pk in power.iter_mut().take(2 * m - 1) {
+            *pk += p;
+            p *= sj;
+        }
+    }
+    let mut a = [[0.0f64; 4]; 3];
+    for (r, row) in a.iter_mut().enumerate().take(m) {
+        for (c, cell) in row.iter_mut().enumerate().take(m) {
+            *cell = power[r + c];
+        }
+        row[3] = if r == 0 { 1.0 } else { 0.0 };
+    }
+    let tiny = 1e-10 * s.len() as f64;
+    for col in 0..m {
+        let pivot = (col..m).max_by(|&p, &q| a[p][col].abs().total_cmp(&a[q][col].abs()))?;
+        if a[pivot][col].abs() <= tiny {
+            return None;
+        }
+        a.swap(col, pivot);
+        let pivot_row = a[col];
+        for (r, row) in a.iter_mut().enumerate().take(m) {
+            if r != col {
+                let f = row[col] / pivot_row[col];
+                for (cell, &p) in row.iter_mut().zip(&pivot_row).skip(col) {
+                    *cell -= f * p;
+                }
+            }
+        }
+    }
+    let mut v = [0.0f64; 3];
+    for (r, vr) in v.iter_mut().enumerate().take(m) {
+        *vr = a[r][3] / a[r][r];
+    }
+    Some(v)
+}
+
+/// The values' transform `z = T(y)` (module docs, step 2).
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum ValueScale {
+    Linear,
+    Sqrt,
+    Log,
+}
+
+impl ValueScale {
+    fn apply(self, y: f64) -> f64 {
+        match self {
+            ValueScale::Linear => y,
+            ValueScale::Sqrt => y.sqrt(),
+            ValueScale::Log => y.ln(),
+        }
+    }
+
+    fn invert(self, z: f64) -> f64 {
+        match self {
+            ValueScale::Linear => z,
+            ValueScale::Sqrt => z * z,
+            ValueScale::Log => z.exp(),
+        }
+    }
+}
+
+/// A series in one representation: values `z` against abscissae `a` (recorded `x` or point
+/// number); only the points marked in `active` serve as neighbours.
+struct View<'a> {
+    z: &'a [f64],
+    a: &'a [f64],
+    active: &'a [bool],
+}
+
+/// The neighbours of one point in series order: indices and count.
+struct Neighbours {
+    index: [usize; 2 * HALF_WINDOW],
+    len: usize,
+    /// The point has no neighbour on one side (an end of the series).
+    end: bool,
+}
+
+impl Neighbours {
+    fn iter(&self) -> impl Iterator<Item = usize> + '_ {
+        self.index.iter().take(self.len).copied()
+    }
+}
+
+impl View<'_> {
+    fn is_active(&self, j: usize) -> bool {
+        self.active.get(j).copied().unwrap_or(false)
+    }
+
+    /// The `2 HALF_WINDOW` active points nearest to `i` in series order, `i` itself left out:
+    /// `HALF_WINDOW` on each side, more from one side where the other runs out (step 1).
+    fn neighbours(&self, i: usize) -> Neighbours {
+        let w = 2 * HALF_WINDOW;
+        let mut left = [0usize; 2 * HALF_WINDOW];
+        let mut right = [0usize; 2 * HALF_WINDOW];
+        let mut nl = 0;
+        for j in (0..i).rev().filter(|&j| self.is_active(j)) {
+            if nl == w {
+                break;
+            }
+            left[nl] = j;
+            nl += 1;
+        }
+        let mut nr = 0;
+        for j in (i + 1..self.z.len()).filter(|&j| self.is_active(j)) {
+            if nr == w {
+                break;
+            }
+            right[nr] = j;
+            nr += 1;
+        }
+        let take_left = nl.min(HALF_WINDOW.max(w.saturating_sub(nr)));
+        let take_right = nr.min(w - take_left);
+        let mut out = Neighbours {
+            index: [0; 2 * HALF_WINDOW],
+            len: 0,
+            end: nl == 0 || nr == 0,
+        };
+        for &j in left[..take_left].iter().rev().chain(&right[..take_right]) {
+            out.index[out.len] = j;
+            out.len += 1;
+        }
+        out
+    }
+
+    /// Leave-one-out quadratic prediction of point `i` from its neighbours (step 1), without
+    /// the neighbour `skip` if given.
+    fn centred(&self, i: usize, nb: &Neighbours, skip: Option<usize>) -> Option<Prediction> {
+        let ai = *self.a.get(i)?;
+        let mut u = [0.0f64; 2 * HALF_WINDOW];
+        let mut z = [0.0f64; 2 * HALF_WINDOW];
+        let mut k = 0;
+        for j in nb.iter().filter(|&j| Some(j) != skip) {
+            if let (Some(&aj), Some(&zj)) = (self.a.get(j), self.z.get(j)) {
+                u[k] = aj - ai;
+                z[k] = zj;
+                k += 1;
+            }
+        }
+        predict_at_zero(&u[..k], &z[..k], 2)
+    }
+
+    /// The deviation from the reference that an unresolved bend or step can explain (step
+    /// 5): the largest second difference of the neighbours' values (taken in series order,
+    /// the point itself skipped); for an end point, whose reference is extrapolated, the
+    /// whole change across the neighbours (largest less smallest value), times `√(Σ_j w_j²)`
+    /// of the prediction when that exceeds 1. `weight_sq` is the prediction's `Σ_j w_j²`.
+    fn allowance(&self, nb: &Neighbours, weight_sq: f64) -> f64 {
+        if nb.end {
+            let values = nb.iter().filter_map(|j| self.z.get(j).copied());
+            let (min, max) = values.fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), v| {
+                (a.min(v), b.max(v))
+            });
+            // Amplified as the extrapolation amplifies noise.
+            let stretch = weight_sq.sqrt().max(1.0);
+            return (max - min).max(0.0) * stretch;
+        }
+        // Neighbours at the same abscissa (repeated readings) count as one, their mean.
+        let mut groups = [0.0f64; 2 * HALF_WINDOW];
+        let mut count = 0;
+        let (mut at, mut sum, mut members) = (f64::NAN, 0.0, 0.0);
+        for j in nb.iter() {
+            let (Some(&aj), Some(&zj)) = (self.a.get(j), self.z.get(j)) else {
+                continue;
+            };
+            if aj != at && members > 0.0 {
+                groups[count] = sum / members;
+                count += 1;
+                (sum, members) = (0.0, 0.0);
+            }
+            at = aj;
+            sum += zj;
+            members += 1.0;
+        }
+        if members > 0.0 {
+            groups[count] = sum / members;
+            count += 1;
+        }
+        groups[..count]
+            .windows(3)
+            .map(|w| (w[2] - 2.0 * w[1] + w[0]).abs())
+            .fold(0.0, f64::max)
+    }
+}
+
+/// The reading resolution: the coarsest power of ten of which every difference between two
+/// values is a whole multiple (the last recorded digit, whatever the offset of the unit), or
+/// 0 when there is none within twelve digits of the largest value.
+fn resolution(y: &[f64]) -> f64 {
+    let Some(&first) = y.first() else {
+        return 0.0;
+    };
+    let top = y.iter().fold(0.0f64, |a, &v| a.max(v.abs()));
+    let spread = y.iter().fold(0.0f64, |a, &v| a.max((v - first).abs()));
+    if !(spread > 0.0 && top.is_finite()) {
+        return 0.0;
+    }
+    let p_hi = spread.log10().floor() as i32;
+    let p_lo = top.log10().floor() as i32 - 12;
+    for p in (p_lo..=p_hi).rev() {
+        let step = 10f64.powi(p);
+        // Rounding error of the stored values, in steps.
+        let tolerance = 1e-6f64.max(16.0 * f64::EPSILON * top / step);
+        let on_grid = y.iter().all(|&v| {
+            let r = (v - first) / step;
+            (r - r.round()).abs() <= tolerance
+        });
+        if on_grid {
+            return step;
+        }
+    }
+    0.0
+}
+
+/// Robust scale of the residuals of the active points in the smaller and the larger half of
+/// the values (by `y`), each with its count, and which half each point is in (`true` =
+/// larger half).
+fn half_scales(c: &[f64], y: &[f64], active: &[bool]) -> ([(f64, usize); 2], Vec<bool>) {
+    let mut order: Vec<usize> = (0..c.len())
+        .filter(|&i| c[i].is_finite() && active.get(i).copied().unwrap_or(false))
+        .collect();
+    order.sort_by(|&p, &q| y[p].total_cmp(&y[q]));
+    let half = order.len() / 2;
+    let mut upper = vec![false; c.len()];
+    let border = order.get(half).map(|&i| y[i]);
+    for (i, u) in upper.iter_mut().enumerate() {
+        *u = border.is_some_and(|b| y[i] >= b);
+    }
+    let lower_c: Vec<f64> = order[..half].iter().map(|&i| c[i]).collect();
+    let upper_c: Vec<f64> = order[half..].iter().map(|&i| c[i]).collect();
+    (
+        [
+            (robust_scale(&lower_c).0, lower_c.len()),
+            (robust_scale(&upper_c).0, upper_c.len()),
+        ],
+        upper,
+    )
+}
+
+/// One flagged point: its index, its distance from the reference in robust standard
+/// deviations and the bar it crossed.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct OutlierFlag {
+    /// Index of the point in series order.
+    pub index: usize,
+    /// `|c_i − median(c)| / σ` (module docs).
+    pub sigmas: f64,
+    /// The bar `k` for this point.
+    pub limit: f64,
+}
+
+/// One representation of a series judged on its own: values `z` against one abscissa, with
+/// the standardised residuals and the noise scales of module docs steps 1 and 3, from the
+/// active points.
+struct Judge<'a> {
+    view: View<'a>,
+    /// Neighbours of every point.
+    neighbours: Vec<Neighbours>,
+    /// Standardised deleted residuals `c_i` (NaN where no fit).
+    c: Vec<f64>,
+    /// Reference values `ẑ_i` (NaN where no fit).
+    reference: Vec<f64>,
+    /// `Σ_j w_ij²` of each reference.
+    weight_sq: Vec<f64>,
+    /// Largest `|z|` of the series.
+    magnitude: f64,
+    /// Series scale σ̂, its count m and the median of `c`.
+    sigma: f64,
+    count: usize,
+    centre: f64,
+    /// Scale and count of the smaller and the larger half of the values; which half each
+    /// point is in.
+    halves: [(f64, usize); 2],
+    upper: Vec<bool>,
+}
+
+impl<'a> Judge<'a> {
+    fn new(z: &'a [f64], a: &'a [f64], active: &'a [bool], y: &[f64]) -> Self {
+        let view = View { z, a, active };
+        let n = z.len();
+        let neighbours: Vec<Neighbours> = (0..n).map(|i| view.neighbours(i)).collect();
+        let mut c = vec![f64::NAN; n];
+        let mut reference = vec![f64::NAN; n];
+        let mut weight_sq = vec![f64::NAN; n];
+        for (i, nb) in neighbours.iter().enumerate() {
+            if let Some(p) = view.centred(i, nb, None) {
+                c[i] = (z[i] - p.value) / (1.0 + p.weight_sq).sqrt();
+                reference[i] = p.value;
+                weight_sq[i] = p.weight_sq;
+            }
+        }
+        let finite: Vec<f64> = (0..n)
+            .filter(|&i| c[i].is_finite() && view.is_active(i))
+            .map(|i| c[i])
+            .collect();
+        let (sigma, centre) = robust_scale(&finite);
+        let (halves, upper) = half_scales(&c, y, active);
+        Judge {
+            view,
+            neighbours,
+            c,
+            reference,
+            weight_sq,
+            magnitude: z.iter().fold(0.0f64, |m, v| m.max(v.abs())),
+            sigma,
+            count: finite.len(),
+            centre,
+            halves,
+            upper,
+        }
+    }
+
+    /// The standardised residual of point `i` that is smallest in size among the fits that
+    /// leave out, besides the point, one of its neighbours: unlike `c_i` it is not driven by
+    /// a single gross error next to the point. For ranking suspects only.
+    fn resistant_residual(&self, i: usize) -> Option<f64> {
+        let nb = self.neighbours.get(i)?;
+        let zi = *self.view.z.get(i)?;
+        nb.iter()
+            .filter_map(|k| self.view.centred(i, nb, Some(k)))
+            .map(|p| (zi - p.value) / (1.0 + p.weight_sq).sqrt())
+            .min_by(|a, b| a.abs().total_cmp(&b.abs()))
+    }
+
+    /// How uneven the noise is between the smaller and the larger half of the values (≥ 1).
+    fn unevenness(&self) -> f64 {
+        let [(lo, _), (hi, _)] = self.halves;
+        if lo > 0.0 && hi > 0.0 {
+            lo.max(hi) / lo.min(hi)
+        } else if lo == hi {
+            1.0
+        } else {
+            f64::INFINITY
+        }
+    }
+
+    /// Distance of point `i` from its reference in robust standard deviations, and the bar
+    /// (steps 3 and 4): the larger of the series bar and the bar of the point's own half.
+    fn distance(&self, i: usize) -> Option<(f64, f64)> {
+        let ci = *self.c.get(i)?;
+        if !(ci.is_finite() && self.sigma > 0.0) {
+            return None;
+        }
+        let (s_half, m_half) = self.halves[usize::from(*self.upper.get(i)?)];
+        let mut used = (self.sigma, outlier_threshold(self.count));
+        let k_half = outlier_threshold(m_half);
+        if m_half >= MIN_HALF && s_half * k_half > used.0 * used.1 {
+            used = (s_half, k_half);
+        }
+        let (s_used, k_used) = used;
+        Some(((ci - self.centre).abs() / s_used, k_used))
+    }
+
+    /// Is point `i` far from this reference (steps 3 to 6)? Its distance and bar, or `None`
+    /// when it passes. `y` is in the file's scale, `invert` maps a reference value back to
+    /// it, `q` is the reading resolution.
+    fn far(&self, i: usize, y: &[f64], invert: impl Fn(f64) -> f64, q: f64) -> Option<(f64, f64)> {
+        let (sigmas, bar) = self.distance(i)?;
+        if sigmas <= bar {
+            return None;
+        }
+        let zi = *self.view.z.get(i)?;
+        let reference = *self.reference.get(i)?;
+        // Rounding in the fit itself (a constant series gives residuals of 1e-14).
+        if (zi - reference).abs() <= ROUNDING * self.magnitude {
+            return None;
+        }
+        if (zi - reference).abs()
+            <= self
+                .view
+                .allowance(self.neighbours.get(i)?, *self.weight_sq.get(i)?)
+        {
+            return None;
+        }
+        if (y.get(i)? - invert(reference)).abs() <= RESOLUTION_STEPS * q {
+            return None;
+        }
+        Some((sigmas, bar))
+    }
+}
+
+/// The series in the value scale chosen for the active points (step 2), with one judge per
+/// abscissa.
+struct Judged<'a> {
+    scale: ValueScale,
+    judges: Vec<Judge<'a>>,
+}
+
+impl Judged<'_> {
+    /// Point `i` judged on every abscissa: `Some` (smallest distance, its bar) only when it is
+    /// far on all of them.
+    fn far(&self, i: usize, y: &[f64], q: f64) -> Option<(f64, f64)> {
+        let mut worst: Option<(f64, f64)> = None;
+        for j in &self.judges {
+            let (sig, lim) = j.far(i, y, |r| self.scale.invert(r), q)?;
+            if worst.is_none_or(|(w, _)| sig < w) {
+                worst = Some((sig, lim));
+            }
+        }
+        worst
+    }
+
+    /// The next suspect: the active point farthest from its neighbours, ranked by the
+    /// resistant residuals in series-wide robust standard deviations (the smaller over the
+    /// abscissae).
+    fn suspect(&self, active: &[bool]) -> Option<usize> {
+        let mut ratio = vec![f64::INFINITY; active.len()];
+        for j in &self.judges {
+            let r: Vec<Option<f64>> = (0..active.len())
+                .map(|i| {
+                    if active[i] {
+                        j.resistant_residual(i)
+                    } else {
+                        None
+                    }
+                })
+                .collect();
+            let finite: Vec<f64> = r.iter().flatten().copied().collect();
+            let (scale, centre) = robust_scale(&finite);
+            for (ri, q) in ratio.iter_mut().zip(&r) {
+                let v = match q {
+                    Some(v) if scale > 0.0 => (v - centre).abs() / scale,
+                    _ => 0.0,
+                };
+                *ri = ri.min(v);
+            }
+        }
+        (0..active.len())
+            .filter(|&i| active[i] && ratio[i].is_finite() && ratio[i] > SUSPECT_SIGMAS)
+            .max_by(|&p, &q| ratio[p].total_cmp(&ratio[q]))
+    }
+}
+
+/// Choose the value scale (step 2) for the active points and build the judges.
+fn judge<'a>(
+    transformed: &'a [(ValueScale, Vec<f64>)],
+    abscissae: &'a [&'a [f64]],
+    active: &'a [bool],
+    y: &[f64],
+) -> Option<Judged<'a>> {
+    let mut best: Option<(f64, usize)> = None;
+    if transformed.len() > 1 {
+        for (k, (_, z)) in transformed.iter().enumerate() {
+            let closest = abscissae
+                .iter()
+                .map(|a| Judge::new(z, a, active, y))
+                .min_by(|p, q| p.sigma.total_cmp(&q.sigma));
+            if let Some(j) = closest {
+                let u = j.unevenness();
+                if best.is_none_or(|(b, _)| u < b) {
+                    best = Some((u, k));
+                }
+            }
+        }
+    }
+    let (scale, z) = transformed.get(best.map_or(0, |(_, k)| k))?;
+    Some(Judged {
+        scale: *scale,
+        judges: abscissae
+            .iter()
+            .map(|a| Judge::new(z, a, active, y))
+            .collect(),
+    })
+}
+
+/// The points of `y` that the rule in the module docs reports, in series order. `x` holds the
+/// times or positions (non-decreasing; pass an empty slice to use the point number only).
+pub fn find_outliers(x: &[f64], y: &[f64]) -> Vec<OutlierFlag> {
+    let n = y.len();
+    if n < MIN_POINTS_FOR_OUTLIERS || y.iter().any(|v| !v.is_finite()) {
+        return Vec::new();
+    }
+    let index: Vec<f64> = (0..n).map(|i| i as f64).collect();
+    let usable_x = x.len() == n
+        && x.iter().all(|v| v.is_finite())
+        && x.windows(2).all(|w| w[1] >= w[0])
+        && x[n - 1] > x[0];
+    let abscissae: Vec<&[f64]> = if !usable_x {
+        vec![&index]
+    } else if x.windows(2).any(|w| w[1] == w[0]) {
+        // Repeated readings at one time or depth: the point number means nothing.
+        vec![x]
+    } else {
+        let mean_step = (x[n - 1] - x[0]) / (n - 1) as f64;
+        let uniform = x
+            .windows(2)
+            .all(|w| ((w[1] - w[0]) - mean_step).abs() <= 1e-9 * mean_step);
+        if uniform {
+            vec![&index]
+        } else {
+            vec![&index, x]
+        }
+    };
+    let mut scales = vec![ValueScale::Linear];
+    let (lo, hi) = y
+        .iter()
+        .fold((f64::INFINITY, 0.0f64), |(a, b), &v| (a.min(v), b.max(v)));
+    if lo > 0.0 && hi / lo > DECADES_RATIO {
+        scales.push(ValueScale::Sqrt);
+        scales.push(ValueScale::Log);
+    }
+    let transformed: Vec<(ValueScale, Vec<f64>)> = scales
+        .iter()
+        .map(|&s| (s, y.iter().map(|&v| s.apply(v)).collect()))
+        .collect();
+    let q = resolution(y);
+
+    // Suspects are set aside one at a time, so that a gross error does not inflate the
+    // residuals of its neighbours and the noise scale (step 7).
+    let max_suspects = (n / 5).clamp(2, MAX_OUTLIER_WARNINGS);
+    let mut active = vec![true; n];
+    let mut suspects = Vec::new();
+    while suspects.len() < max_suspects {
+        let next = judge(&transformed, &abscissae, &active, y).and_then(|j| j.suspect(&active));
+        let Some(i) = next else { break };
+        active[i] = false;
+        suspects.push(i);
+    }
+    // Suspects that are far from the other points with all suspects set aside are
+    // confirmed; the rest go back. Every point is then judged with only the confirmed ones
+    // set aside.
+    let mut mask = vec![true; n];
+    if let Some(j) = judge(&transformed, &abscissae, &active, y) {
+        for &i in &suspects {
+            mask[i] = j.far(i, y, q).is_none();
+        }
+    }
+    let mut reported: Vec<OutlierFlag> = Vec::new();
+    if let Some(j) = judge(&transformed, &abscissae, &mask, y) {
+        for i in 0..n {
+            if let Some((sigmas, limit)) = j.far(i, y, q) {
+                reported.push(OutlierFlag {
+                    index: i,
+                    sigmas,
+                    limit,
+                });
+            }
+        }
+    }
+    reported.sort_by_key(|f| f.index);
+    reported
+}
+
+/// Indices of the points of `y` the outlier rule reports (module docs), in series order;
+/// `x` as for [`find_outliers`].
+pub fn outlier_indices(x: &[f64], y: &[f64]) -> Vec<usize> {
+    find_outliers(x, y).iter().map(|f| f.index).collect()
+}
+
+/// Outlier warnings for `y` (series order) at times or positions `x`; `loc(i)` locates point
+/// `i`, `show(i)` formats its value for the message.
 pub(crate) fn outliers(
+    x: &[f64],
     y: &[f64],
     loc: &dyn Fn(usize) -> Location,
     show: &dyn Fn(usize) -> String,
     what: &str,
 ) -> Vec<Warning> {
-    let idx = outlier_indices(y);
-    let mut out: Vec<Warning> = idx
+    let flags = find_outliers(x, y);
+    let mut out: Vec<Warning> = flags
         .iter()
         .take(MAX_OUTLIER_WARNINGS)
-        .map(|&i| Warning {
+        .map(|f| Warning {
             kind: WarningKind::Outlier,
-            location: loc(i),
+            location: loc(f.index),
             message: format!(
-                "{what}: value {} is more than {OUTLIER_SIGMAS} robust standard deviations \
-                 from its neighbours; check the cell (a typing error or a glitch?)",
-                show(i)
+                "{what}: value {} lies {:.0} robust standard deviations from the smooth curve \
+                 through its neighbours (the limit for this series is {:.1}); check the cell \
+                 (a typing error or a glitch?)",
+                show(f.index),
+                f.sigmas,
+                f.limit
             ),
         })
         .collect();
-    if idx.len() > MAX_OUTLIER_WARNINGS {
-        if let Some(&i) = idx.get(MAX_OUTLIER_WARNINGS) {
+    if flags.len() > MAX_OUTLIER_WARNINGS {
+        if let Some(f) = flags.get(MAX_OUTLIER_WARNINGS) {
             out.push(Warning {
                 kind: WarningKind::Outlier,
-                location: loc(i),
+                location: loc(f.index),
                 message: format!(
                     "{what}: {} more points are far from their neighbours (not listed)",
-                    idx.len() - MAX_OUTLIER_WARNINGS
+                    flags.len() - MAX_OUTLIER_WARNINGS
                 ),
             });
         }
@@ -176,6 +873,10 @@ pub(crate) fn outliers(
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::analytic::special::erfc;
+    use rand::rngs::StdRng;
+    use rand::SeedableRng;
+    use rand_distr::{Distribution, Normal};
 
     #[test]
     fn a_single_spike_is_found_and_its_neighbours_are_not() {
@@ -187,14 +888,18 @@ mod tests {
             })
             .collect();
         y[20] += 0.2;
-        assert_eq!(outlier_indices(&y), vec![20]);
+        assert_eq!(outlier_indices(&[], &y), vec![20]);
+        let x: Vec<f64> = (0..50).map(|i| 10.0 * i as f64).collect();
+        assert_eq!(outlier_indices(&x, &y), vec![20]);
     }
 
     #[test]
     fn clean_monotone_data_has_no_outliers() {
         let y: Vec<f64> = (0..100).map(|i| (i as f64).sqrt()).collect();
-        assert!(outlier_indices(&y).is_empty());
-        assert!(outlier_indices(&[1.0, 2.0, 100.0, 3.0]).is_empty()); // too short to judge
+        assert!(outlier_indices(&[], &y).is_empty());
+        // Too short to judge.
+        assert!(outlier_indices(&[], &[1.0, 2.0, 100.0, 3.0]).is_empty());
+        assert!(outlier_indices(&[], &[1.0, 2.0, 3.0, 100.0, 5.0, 6.0]).is_empty());
     }
 
     #[test]
@@ -211,5 +916,513 @@ mod tests {
     fn median_of_even_and_odd() {
         assert_eq!(median(&mut [3.0, 1.0, 2.0]), 2.0);
         assert_eq!(median(&mut [4.0, 1.0, 3.0, 2.0]), 2.5);
+    }
+
+    /// Seeded replicates per clean curve.
+    const REPLICATES: usize = 200;
+
+    /// Offset from the file's unit to SI: the check sees SI values, typing errors happen in
+    /// the file's unit (°C here; T/K = t/°C + 273.15, SI Brochure 2019, from memory).
+    #[derive(Clone, Copy)]
+    enum FileUnit {
+        /// mg, stored as kg.
+        Milligram,
+        /// °C, stored as K.
+        Celsius,
+        /// The SI unit itself (mol/m³).
+        Si,
+    }
+
+    impl FileUnit {
+        fn to_si(self, v: f64) -> f64 {
+            match self {
+                FileUnit::Milligram => v * 1e-6,
+                FileUnit::Celsius => v + 273.15,
+                FileUnit::Si => v,
+            }
+        }
+    }
+
+    /// An invented clean curve in the file's unit: abscissae (s or m), true values and the
+    /// noise standard deviation of each point.
+    struct Curve {
+        name: &'static str,
+        x: Vec<f64>,
+        truth: Vec<f64>,
+        sd: Vec<f64>,
+        unit: FileUnit,
+        /// Readings are rounded to this step in the file (0: printed in full).
+        rounding: f64,
+    }
+
+    impl Curve {
+        fn new(name: &'static str, x: Vec<f64>, f: impl Fn(f64) -> f64, unit: FileUnit) -> Self {
+            let truth: Vec<f64> = x.iter().map(|&t| f(t)).collect();
+            Curve {
+                name,
+                sd: vec![0.0; truth.len()],
+                x,
+                truth,
+                unit,
+                rounding: 0.0,
+            }
+        }
+
+        fn noise(mut self, sd: impl Fn(f64) -> f64) -> Self {
+            self.sd = self.truth.iter().map(|&v| sd(v)).collect();
+            self
+        }
+
+        /// One noisy replicate in the file's unit.
+        fn draw(&self, rng: &mut StdRng) -> Vec<f64> {
+            self.truth
+                .iter()
+                .zip(&self.sd)
+                .map(|(&v, &sd)| {
+                    let e = Normal::new(0.0, sd).map_or(0.0, |d| d.sample(rng));
+                    let r = v + e;
+                    if self.rounding > 0.0 {
+                        (r / self.rounding).round() * self.rounding
+                    } else {
+                        r
+                    }
+                })
+                .collect()
+        }
+
+        fn si(&self, file_values: &[f64]) -> Vec<f64> {
+            file_values.iter().map(|&v| self.unit.to_si(v)).collect()
+        }
+    }
+
+    /// Uptake shape `m0 + Δm (1 − e^{−t/τ})` (first-order approach to equilibrium, common
+    /// practice), balance reading in mg: m0 = 15.2 mg, Δm = 0.4 mg, τ = 600 s.
+    fn uptake(t: f64) -> f64 {
+        15.2 + 0.4 * (1.0 - (-t / 600.0).exp())
+    }
+
+    /// Constant-surface in-diffusion into a semi-infinite solid,
+    /// `c = c_s erfc(x / (2 √(D t)))` (Crank 1975, eq. 3.13, from memory), with
+    /// `2 √(D t)` = 100 µm, `c_s` = 1000 mol/m³, plus a background `c_0`.
+    fn depth(c0: f64) -> impl Fn(f64) -> f64 {
+        move |x| 1000.0 * erfc(x / 100e-6) + c0
+    }
+
+    /// Uptake of a plane sheet from both faces, `M_t/M_∞ = 1 − Σ_n 8/((2n+1)² π²)
+    /// exp(−D (2n+1)² π² t / L²)` (Crank 1975, eq. 4.18, from memory), with
+    /// `L²/(π² D)` = 600 s: it starts like √t. Balance reading in mg as for [`uptake`].
+    fn fickian(t: f64) -> f64 {
+        let pi2 = std::f64::consts::PI.powi(2);
+        let sum: f64 = (0..2000)
+            .map(|n| {
+                let m = (2 * n + 1) as f64;
+                8.0 / (m * m * pi2) * (-m * m * t / 600.0).exp()
+            })
+            .sum();
+        15.2 + 0.4 * (1.0 - sum)
+    }
+
+    fn linspace(a: f64, b: f64, n: usize) -> Vec<f64> {
+        (0..n)
+            .map(|k| a + (b - a) * k as f64 / (n - 1) as f64)
+            .collect()
+    }
+
+    /// t = 0, then `n − 1` times logarithmically spaced over three decades up to 10 τ.
+    fn log_times(n: usize) -> Vec<f64> {
+        let mut t = vec![0.0];
+        t.extend((0..n - 1).map(|k| 6.0 * 10f64.powf(3.0 * k as f64 / (n - 2) as f64)));
+        t
+    }
+
+    /// The clean curves every false-alarm test runs over.
+    fn clean_curves() -> Vec<Curve> {
+        let sine_drift =
+            |t: f64| 40.0 + 10.0 * (2.0 * std::f64::consts::PI * t / 600.0).sin() + 2e-3 * t;
+        let mut quantised = Curve::new(
+            "slow temperature trace read to 0.1 degC",
+            linspace(0.0, 3600.0, 181),
+            |t| 21.5 + 0.8 * (t / 3000.0),
+            FileUnit::Celsius,
+        )
+        .noise(|_| 0.02);
+        quantised.rounding = 0.1;
+        let replicated: Vec<f64> = linspace(0.0, 400e-6, 16)
+            .into_iter()
+            .flat_map(|x| [x, x])
+            .collect();
+        vec![
+            Curve::new(
+                "uptake, linear times, noise 0.002 mg",
+                linspace(0.0, 3000.0, 60),
+                uptake,
+                FileUnit::Milligram,
+            )
+            .noise(|_| 0.002),
+            Curve::new(
+                "uptake, linear times, noise 0.0002 mg",
+                linspace(0.0, 3000.0, 60),
+                uptake,
+                FileUnit::Milligram,
+            )
+            .noise(|_| 0.0002),
+            Curve::new(
+                "uptake, logarithmic times, noise 0.002 mg",
+                log_times(40),
+                uptake,
+                FileUnit::Milligram,
+            )
+            .noise(|_| 0.002),
+            Curve::new(
+                "uptake, logarithmic times, noise 0.0002 mg",
+                log_times(40),
+                uptake,
+                FileUnit::Milligram,
+            )
+            .noise(|_| 0.0002),
+            Curve::new(
+                "Fickian sheet uptake, linear times, noise 0.0002 mg",
+                linspace(0.0, 3000.0, 60),
+                fickian,
+                FileUnit::Milligram,
+            )
+            .noise(|_| 0.0002),
+            Curve::new(
+                "Fickian sheet uptake, logarithmic times, noise 0.0002 mg",
+                log_times(40),
+                fickian,
+                FileUnit::Milligram,
+            )
+            .noise(|_| 0.0002),
+            Curve::new(
+                "uptake, 7 points",
+                linspace(0.0, 3000.0, 7),
+                uptake,
+                FileUnit::Milligram,
+            )
+            .noise(|_| 0.002),
+            Curve::new(
+                "uptake, 10 points",
+                linspace(0.0, 3000.0, 10),
+                uptake,
+                FileUnit::Milligram,
+            )
+            .noise(|_| 0.002),
+            Curve::new(
+                "depth profile over 3 decades, 3 % relative noise",
+                linspace(0.0, 233e-6, 31),
+                depth(0.0),
+                FileUnit::Si,
+            )
+            .noise(|c| 0.03 * c),
+            Curve::new(
+                "depth profile over 3 decades, constant noise 0.1",
+                linspace(0.0, 260e-6, 31),
+                depth(2.0),
+                FileUnit::Si,
+            )
+            .noise(|_| 0.1),
+            Curve::new(
+                "depth profile over 3 decades, counting noise 0.3 sqrt(c)",
+                linspace(0.0, 260e-6, 31),
+                depth(2.0),
+                FileUnit::Si,
+            )
+            .noise(|c: f64| 0.3 * c.sqrt()),
+            Curve::new(
+                "depth profile, two readings per depth",
+                replicated,
+                depth(180.0),
+                FileUnit::Si,
+            )
+            .noise(|_| 8.0),
+            Curve::new(
+                "sine plus drift, 20 s readings",
+                linspace(0.0, 4780.0, 240),
+                sine_drift,
+                FileUnit::Celsius,
+            )
+            .noise(|_| 0.05),
+            Curve::new(
+                "heater switched on at 300 s (a real step)",
+                linspace(0.0, 1200.0, 121),
+                |t| if t < 300.0 { 20.0 } else { 90.0 },
+                FileUnit::Celsius,
+            )
+            .noise(|_| 0.1),
+            Curve::new(
+                "heater ramp then hold (a corner)",
+                linspace(0.0, 1200.0, 61),
+                |t| 21.5 + 0.45 * t.min(150.0),
+                FileUnit::Celsius,
+            )
+            .noise(|_| 0.1),
+            quantised,
+        ]
+    }
+
+    /// Flagged points on noise alone, per curve: (series with a flag, points flagged).
+    fn false_alarms(curve: &Curve, seed: u64) -> (usize, usize) {
+        let mut rng = StdRng::seed_from_u64(seed);
+        let (mut series, mut points) = (0, 0);
+        for _ in 0..REPLICATES {
+            let y = curve.si(&curve.draw(&mut rng));
+            let flags = outlier_indices(&curve.x, &y);
+            if !flags.is_empty() {
+                series += 1;
+                points += flags.len();
+            }
+        }
+        (series, points)
+    }
+
+    #[test]
+    fn clean_noisy_curves_raise_no_outlier_warning() {
+        let mut failures = Vec::new();
+        let mut total_points = 0;
+        for (k, curve) in clean_curves().iter().enumerate() {
+            let (series, points) = false_alarms(curve, 1000 + k as u64);
+            total_points += points;
+            eprintln!(
+                "false alarms, {}: {series} of {REPLICATES} series, {points} points",
+                curve.name
+            );
+            if series > 0 {
+                failures.push(format!("{}: {series} series, {points} points", curve.name));
+            }
+        }
+        eprintln!("false alarms in total: {total_points} points");
+        assert!(failures.is_empty(), "false alarms: {failures:?}");
+    }
+
+    /// A typing error made in the file's unit.
+    #[derive(Debug, Clone, Copy)]
+    enum Typo {
+        /// The decimal point one place off: the value ×10.
+        TimesTen,
+        /// The first two significant digits swapped (43.2 → 34.2).
+        DigitSwap,
+        /// The minus sign added or lost.
+        SignFlip,
+    }
+
+    impl Typo {
+        /// The mistyped value, or `None` when this typo leaves `v` unchanged or changes its
+        /// number of digits (a swap with equal digits or a zero second digit).
+        fn apply(self, v: f64) -> Option<f64> {
+            match self {
+                Typo::TimesTen => Some(10.0 * v),
+                Typo::SignFlip => Some(-v),
+                Typo::DigitSwap => {
+                    let a = v.abs();
+                    let unit = 10f64.powf(a.log10().floor());
+                    let d1 = (a / unit).floor();
+                    let d2 = ((a - d1 * unit) / (unit / 10.0)).floor();
+                    if d1 == d2 || d2 == 0.0 {
+                        return None;
+                    }
+                    Some(v.signum() * (a + 9.0 * (d2 - d1) * unit / 10.0))
+                }
+            }
+        }
+    }
+
+    /// Counts over the replicates of one curve and typo.
+    #[derive(Debug, Default)]
+    struct Detection {
+        planted: usize,
+        /// The planted point was reported.
+        found: usize,
+        /// Other points reported in the same series.
+        others: usize,
+    }
+
+    /// Planted errors are at least this many noise standard deviations.
+    const GROSS: f64 = 20.0;
+
+    /// Plant one typo per replicate at a random point (any point, ends included) and count.
+    fn detect(curve: &Curve, typo: Typo, seed: u64) -> Detection {
+        use rand::Rng;
+        let mut rng = StdRng::seed_from_u64(seed);
+        let mut d = Detection::default();
+        let n = curve.truth.len();
+        for _ in 0..REPLICATES {
+            let mut file = curve.draw(&mut rng);
+            // A gross error: at least GROSS noise standard deviations.
+            let planted = (0..200).find_map(|_| {
+                let i = rng.random_range(0..n);
+                typo.apply(file[i])
+                    .filter(|v| (v - file[i]).abs() >= GROSS * curve.sd[i])
+                    .map(|v| (i, v))
+            });
+            let Some((i, v)) = planted else { continue };
+            file[i] = v;
+            let flags = outlier_indices(&curve.x, &curve.si(&file));
+            d.planted += 1;
+            d.found += usize::from(flags.contains(&i));
+            d.others += flags.iter().filter(|&&k| k != i).count();
+        }
+        d
+    }
+
+    /// The detection rate a curve must reach, and why it may fall short of 1.
+    fn expected_detection(name: &str, typo: Typo) -> f64 {
+        match (name, typo) {
+            // A lost minus sign makes the values non-positive, so the profile is judged on
+            // the linear scale, where the noise of the small tail values is hidden in the
+            // series' noise scale (module docs, step 3): errors in the tail are missed.
+            (n, Typo::SignFlip) if n.contains("3 % relative") => 0.75,
+            // 31 points over 2.6 diffusion lengths with noise 1e-4 of the top value: the
+            // residuals are dominated by the curvature the quadratic cannot follow, and a
+            // swap of the leading digits of a tail value (a factor 1.5-2) is within it.
+            (n, Typo::DigitSwap) if n.contains("constant noise 0.1") => 0.80,
+            // Errors within four points of the step share their window with it (step 5),
+            // and one end of a ramp is extrapolated across the whole ramp.
+            (n, _) if n.contains("heater") => 0.92,
+            _ => 0.95,
+        }
+    }
+
+    #[test]
+    fn a_planted_typing_error_is_reported_at_its_point() {
+        let curves = clean_curves();
+        let mut failures = Vec::new();
+        let (mut planted, mut found, mut others) = (0, 0, 0);
+        for (k, curve) in curves.iter().enumerate() {
+            for (t, typo) in [Typo::TimesTen, Typo::DigitSwap, Typo::SignFlip]
+                .into_iter()
+                .enumerate()
+            {
+                let d = detect(curve, typo, 5000 + 10 * k as u64 + t as u64);
+                eprintln!(
+                    "detection, {} / {typo:?}: {} of {} found, {} other points reported",
+                    curve.name, d.found, d.planted, d.others
+                );
+                planted += d.planted;
+                found += d.found;
+                others += d.others;
+                let rate = d.found as f64 / d.planted.max(1) as f64;
+                if d.planted < REPLICATES || rate < expected_detection(curve.name, typo) {
+                    failures.push(format!("{} / {typo:?}: {d:?}", curve.name));
+                }
+                // Setting the error aside must not expose its neighbours (common practice:
+                // no more than one other point in all replicates of a curve).
+                if d.others > 1 {
+                    failures.push(format!("{} / {typo:?}: others {d:?}", curve.name));
+                }
+            }
+        }
+        eprintln!("detection in total: {found} of {planted}, {others} other points reported");
+        assert!(failures.is_empty(), "{failures:#?}");
+        assert!(
+            found as f64 >= 0.97 * planted as f64,
+            "{found} of {planted}"
+        );
+    }
+
+    #[test]
+    fn constant_series_and_repeated_values() {
+        // All equal: nothing to report, whatever the abscissa.
+        let x = linspace(0.0, 100.0, 20);
+        assert!(outlier_indices(&x, &[90.0; 20]).is_empty());
+        assert!(outlier_indices(&[], &[0.0; 20]).is_empty());
+        // One typing error in a constant log (90.0 typed 900.0) is reported.
+        let mut y = vec![90.0; 20];
+        y[7] = 900.0;
+        assert_eq!(outlier_indices(&x, &y), vec![7]);
+        // A reading one or two units of the last digit off on a flat trace is not.
+        let mut y = vec![21.5; 30];
+        y[12] = 21.6;
+        y[20] = 21.7;
+        assert!(outlier_indices(&[], &y).is_empty());
+        // The same row twice (a profile with two identical readings at one depth) is fine,
+        // and so is a profile read twice at every depth.
+        let xs: Vec<f64> = (0..12).flat_map(|k| [k as f64, k as f64]).collect();
+        let ys: Vec<f64> = xs.iter().map(|&d| 100.0 * (-d / 4.0).exp()).collect();
+        assert!(outlier_indices(&xs, &ys).is_empty());
+        let mut ys = ys;
+        ys[9] *= 10.0;
+        assert_eq!(outlier_indices(&xs, &ys), vec![9]);
+    }
+
+    #[test]
+    fn short_series_are_not_judged_and_seven_points_are() {
+        let y = [15.2, 15.3, 152.0, 15.45, 15.5, 15.52];
+        assert!(find_outliers(&[], &y).is_empty());
+        let y = [15.2, 15.3, 152.0, 15.45, 15.5, 15.52, 15.53];
+        assert_eq!(outlier_indices(&[], &y), vec![2]);
+    }
+
+    #[test]
+    fn leave_one_out_weights_match_exact_least_squares() {
+        // Quadratic through the eight neighbours at −4..−1, 1..4, at 0: the weights by exact
+        // rational least squares (common practice; computed by hand from the normal
+        // equations) are (−21, 14, 39, 54, 54, 39, 14, −21)/172, Σw² = 59/172.
+        let u = [-4.0, -3.0, -2.0, -1.0, 1.0, 2.0, 3.0, 4.0];
+        let w = [-21.0, 14.0, 39.0, 54.0, 54.0, 39.0, 14.0, -21.0].map(|v| v / 172.0);
+        for (k, &uk) in u.iter().enumerate() {
+            let mut z = [0.0; 8];
+            z[k] = 1.0;
+            let p = predict_at_zero(&u, &z, 2).map(|p| p.value);
+            assert!(
+                p.is_some_and(|p| (p - w[k]).abs() < 1e-12),
+                "u = {uk}: {p:?}"
+            );
+        }
+        let p = predict_at_zero(&u, &[1.0; 8], 2);
+        assert!(p.is_some_and(|p| (p.weight_sq - 59.0 / 172.0).abs() < 1e-12));
+        // Extrapolation to 0 from 1..5: weights (9, 0, −4, −3, 3)/5, Σw² = 4.6.
+        let u = [1.0, 2.0, 3.0, 4.0, 5.0];
+        let p = predict_at_zero(&u, &[3.0, 5.0, 7.0, 9.0, 11.0], 2);
+        assert!(
+            p.is_some_and(|p| (p.value - 1.0).abs() < 1e-12 && (p.weight_sq - 4.6).abs() < 1e-12)
+        );
+        // All neighbours at the point's own abscissa: their mean.
+        let p = predict_at_zero(&[0.0, 0.0], &[1.0, 3.0], 2);
+        assert!(p.is_some_and(|p| (p.value - 2.0).abs() < 1e-12));
+        assert!(predict_at_zero(&[], &[], 2).is_none());
+    }
+
+    #[test]
+    fn resolution_is_the_last_recorded_digit() {
+        // 0.1 degC readings stored in K (T/K = t/°C + 273.15).
+        let y = [21.5, 21.6, 21.6, 21.8].map(|t| t + 273.15);
+        assert!((resolution(&y) - 0.1).abs() < 1e-12);
+        let y = [1.52e-5, 1.5213e-5, 1.5201e-5];
+        assert!((resolution(&y) - 1e-9).abs() < 1e-21);
+        assert_eq!(resolution(&[3.0; 4]), 0.0);
+        assert_eq!(resolution(&[1.0, std::f64::consts::PI]), 0.0);
+    }
+
+    #[test]
+    fn threshold_rises_for_short_series() {
+        // k(m) = 5 (1 + 2.34/√m): 9.42 for 7, 6.65 for 50, 5.52 for 500.
+        for (m, k) in [(7, 9.4223), (50, 6.6546), (500, 5.5232)] {
+            assert!((outlier_threshold(m) - k).abs() < 1e-3, "{m}");
+        }
+        assert!(outlier_threshold(100_000) > OUTLIER_SIGMAS);
+    }
+
+    #[test]
+    fn warnings_name_the_point_and_count_the_rest() {
+        let loc = |i: usize| Location::default().with_line(i as u64 + 2);
+        let show = |i: usize| format!("#{i}");
+        let x = linspace(0.0, 3000.0, 60);
+        let mut y: Vec<f64> = x.iter().map(|&t| uptake(t)).collect();
+        y[30] *= 10.0;
+        let w = outliers(&x, &y, &loc, &show, "series");
+        assert_eq!(w.len(), 1, "{w:?}");
+        assert_eq!(w[0].kind, WarningKind::Outlier);
+        assert_eq!(w[0].location.line, Some(32));
+        assert!(w[0].message.contains("#30") && w[0].message.contains("check the cell"));
+        // More errors than are named: the rest are counted in one more warning.
+        let x = linspace(0.0, 3000.0, 300);
+        let mut y: Vec<f64> = x.iter().map(|&t| uptake(t)).collect();
+        for k in 0..12 {
+            y[20 + 20 * k] *= 10.0;
+        }
+        let w = outliers(&x, &y, &loc, &show, "series");
+        assert_eq!(w.len(), MAX_OUTLIER_WARNINGS + 1, "{w:?}");
+        assert!(w[MAX_OUTLIER_WARNINGS].message.contains("2 more points"));
     }
 }

@@ -387,7 +387,7 @@ pub fn read_time_series_from<R: Read>(
             let v = ts.value.get(i).copied().unwrap_or(f64::NAN);
             format!("{} {}", value_unit.from_si(v), value_unit.label())
         };
-        warnings.extend(checks::outliers(&ts.value, &vloc, &show, &what));
+        warnings.extend(checks::outliers(&ts.time, &ts.value, &vloc, &show, &what));
         out.push(ts);
     }
     Ok(Loaded {
@@ -615,7 +615,7 @@ pub fn read_sensor_table_from<R: Read>(
             let x = main.get(i).copied().unwrap_or(f64::NAN);
             format!("{} {}", unit.from_si(x), unit.label())
         };
-        warnings.extend(checks::outliers(&main, &vloc, &show, &what));
+        warnings.extend(checks::outliers(&table.time, &main, &vloc, &show, &what));
         table.sensors.push(Sensor {
             column,
             position,
@@ -879,6 +879,10 @@ pub fn read_profiles_from<R: Read>(
             .iter()
             .filter_map(|&i| profile.value.get(i).copied())
             .collect();
+        let xs: Vec<f64> = order
+            .iter()
+            .filter_map(|&i| profile.position.get(i).copied())
+            .collect();
         let vloc = |k: usize| {
             let i = order.get(k).copied().unwrap_or(0);
             header.cell(profile.line.get(i).copied().unwrap_or(0), vcol)
@@ -887,7 +891,7 @@ pub fn read_profiles_from<R: Read>(
             let y = ys.get(k).copied().unwrap_or(f64::NAN);
             format!("{} {}", vunit.from_si(y), vunit.label())
         };
-        warnings.extend(checks::outliers(&ys, &vloc, &show, &what));
+        warnings.extend(checks::outliers(&xs, &ys, &vloc, &show, &what));
         out.profiles.push(profile);
     }
     Ok(Loaded {

@@ -458,16 +458,20 @@ fn detection_floor_excluded_or_censored_is_unbiased_and_naive_use_is_not() {
     // At the estimate the model stays below the floor at nearly every censored depth.
     assert!(row.model_above_limit.unwrap() <= 2, "{}", row.summary);
     assert!(row.summary.contains("censored"), "{}", row.summary);
-    // With σ estimated from the scatter, the censored readings under the model count as
-    // points with zero residual and shrink that estimate: the report says so.
+    // Censored readings under the model carry no scatter: they are not counted as points, so
+    // the degrees of freedom are the other readings less the free parameters, and the scatter
+    // estimated from the residuals (relative weighting) matches the fit that excludes them
+    // (common practice: a residual that is zero by construction is not an observation).
+    let under = censored.fit.inactive.iter().filter(|x| **x).count();
+    assert!(under > 0 && under + row.model_above_limit.unwrap() == below.len());
+    let p = censored.fit.free_names.len();
+    assert_eq!(censored.fit.dof, n_all - under - p);
+    let (s_c, s_e) = (censored.dataset_scales[0], excluded.dataset_scales[0]);
     assert!(
-        report
-            .warnings
-            .iter()
-            .any(|w| w.contains("censored") && w.contains("too narrow")),
-        "{:?}",
-        report.warnings
+        (s_c / s_e - 1.0).abs() < 0.15,
+        "scatter with censoring {s_c}, with exclusion {s_e}"
     );
+    assert!(!report.warnings.iter().any(|w| w.contains("too narrow")));
     let report = Report::new(&censored_abs, b"");
     assert!(!report.warnings.iter().any(|w| w.contains("too narrow")));
 }

@@ -227,6 +227,22 @@ impl ResidualProblem for ExperimentProblem {
         self.n
     }
 
+    fn inactive(&mut self, params: &[f64]) -> Result<Vec<bool>> {
+        self.solve_all(params)?;
+        let mut out = vec![false; self.n];
+        for (d, dataset) in self.experiment.datasets.iter().enumerate() {
+            let Some(dl) = &dataset.detection_limit else {
+                continue;
+            };
+            let pred = &self.runs[d].prediction;
+            for i in 0..dataset.len() {
+                // The residual of a censored reading is zero while the model is at or below it.
+                out[self.offsets[d] + i] = dl.is_censored(i) && pred[i] <= dataset.observed[i];
+            }
+        }
+        Ok(out)
+    }
+
     fn refresh(&mut self) {
         for run in &mut self.runs {
             run.base = None;

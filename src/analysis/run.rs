@@ -153,7 +153,13 @@ pub fn analyse(experiment: Arc<Experiment>, options: &AnalysisOptions) -> Result
         if !needs_scales || passes >= 4 {
             break;
         }
-        let n = result.residuals.len() as f64;
+        // Censored readings under the model are not points (see FitResult::inactive).
+        let active = |range: std::ops::Range<usize>| {
+            range
+                .filter(|&i| !result.inactive.get(i).copied().unwrap_or(false))
+                .count()
+        };
+        let n = active(0..result.residuals.len()) as f64;
         let p = result.free_names.len() as f64;
         let mut changed = false;
         let mut new_scales = scales.clone();
@@ -161,7 +167,7 @@ pub fn analyse(experiment: Arc<Experiment>, options: &AnalysisOptions) -> Result
             if absolute[d] {
                 continue;
             }
-            let nd = range.len() as f64;
+            let nd = active(range.clone()) as f64;
             let rss_d: f64 =
                 result.residuals[range].iter().map(|r| r * r).sum::<f64>() * scales[d] * scales[d];
             let s = (rss_d / (nd * (1.0 - p / n))).sqrt();

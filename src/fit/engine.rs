@@ -171,6 +171,9 @@ pub struct FitResult {
     pub starts_tried: usize,
     /// Weighted residuals at the optimum.
     pub residuals: Vec<f64>,
+    /// Residuals that are not observations at the optimum (readings censored at a detection
+    /// limit that the model stays under); they are left out of the point count and `dof`.
+    pub inactive: Vec<bool>,
     /// Residual checks per dataset.
     pub residual_checks: Vec<ResidualChecks>,
     /// Warnings.
@@ -417,13 +420,40 @@ pub fn fit<P: ResidualProblem>(
             format!("{n} data points for {p} free parameters: the fit needs more points than free parameters"),
         ));
     }
-    let dof = n - p;
-    let tcrit = t_critical(opts.level, dof as f64)?;
+    t_critical(opts.level, (n - p) as f64)?;
     let mut ev = Evaluator::new(problem.clone(), set.clone());
     let found = search(&mut ev, opts)?;
     let lm = found.lm;
     let u = lm.u.clone();
     let r = lm.residuals.clone();
+    // Censored readings under the model are not observations: n counts the others.
+    let inactive = {
+        let mut prob = problem.clone();
+        prob.inactive(&ev.external(&u))
+            .ok()
+            .filter(|m| m.len() == n)
+            .unwrap_or_else(|| vec![false; n])
+    };
+    let n_active = inactive.iter().filter(|x| !**x).count();
+    if n_active <= p {
+        return Err(Error::input(
+            InputKind::TooFewPoints,
+            Location::default(),
+            format!(
+                "{n_active} data points (besides {} censored readings under the model) for {p} \
+                 free parameters: the fit needs more points than free parameters",
+                n - n_active
+            ),
+        ));
+    }
+    let dof = n_active - p;
+    let tcrit = t_critical(opts.level, dof as f64)?;
+    let active = |range: std::ops::Range<usize>, v: &[f64]| -> Vec<f64> {
+        range
+            .filter(|&i| !inactive[i])
+            .filter_map(|i| v.get(i).copied())
+            .collect()
+    };
     let jac = jacobian(&mut ev, &u, &r, Difference::Central)
         .ok_or_else(|| Error::Fit("the Jacobian at the optimum could not be formed".into()))?;
     let rss = lm.rss;
@@ -437,17 +467,23 @@ pub fn fit<P: ResidualProblem>(
     let cov = covariance(&jac, scale, &dx, opts.rank_tol);
     let full = ev.external(&u);
     let free_estimates: Vec<f64> = set.free_indices().iter().map(|&i| full[i]).collect();
-    let obs = problem.observations();
+    let obs = problem
+        .observations()
+        .map(|(y, s)| (active(0..n, &y), active(0..n, &s)));
     let good = goodness(
-        &r,
+        &active(0..n, &r),
         p,
         obs.as_ref().map(|(y, s)| (y.as_slice(), s.as_slice())),
         absolute,
     )?;
     let mut checks = Vec::new();
     for d in problem.datasets() {
-        if let Some(slice) = r.get(d.range.clone()) {
-            checks.push(residual_checks(&d.name, slice, opts.residual_alpha));
+        if d.range.end <= r.len() {
+            checks.push(residual_checks(
+                &d.name,
+                &active(d.range.clone(), &r),
+                opts.residual_alpha,
+            ));
         }
     }
     let free_specs = set.free_specs();
@@ -542,6 +578,7 @@ pub fn fit<P: ResidualProblem>(
         used_nelder_mead: found.used_nm,
         starts_tried: found.starts,
         residuals: r,
+        inactive,
         residual_checks: checks,
         warnings,
         bootstrap: boot,

@@ -47,6 +47,15 @@ pub trait ResidualProblem: Clone + Send {
             .collect()
     }
 
+    /// Which residuals at `params` are not observations of a value: readings censored at a
+    /// detection limit that the model stays under (their residual is zero by construction and
+    /// carries no scatter). The engine leaves them out when it counts points and degrees of
+    /// freedom (s², intervals, χ², information criteria, residual checks). Default: none.
+    fn inactive(&mut self, params: &[f64]) -> Result<Vec<bool>> {
+        let _ = params;
+        Ok(vec![false; self.n_residuals()])
+    }
+
     /// Forget any state that makes an evaluation depend on earlier ones (for a model solved
     /// numerically: the step sequence it replays near an earlier point), so that the next
     /// evaluation is computed afresh and becomes the reference for the ones near it. The engine
@@ -185,6 +194,10 @@ impl<P: ResidualProblem> ResidualProblem for ShiftedProblem<P> {
 
     fn refresh(&mut self) {
         self.inner.refresh();
+    }
+
+    fn inactive(&mut self, params: &[f64]) -> Result<Vec<bool>> {
+        self.inner.inactive(params)
     }
 
     fn residuals_batch(

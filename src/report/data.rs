@@ -381,44 +381,6 @@ fn short(x: f64) -> String {
     s.trim_end_matches('0').trim_end_matches('.').to_string()
 }
 
-/// A warning for each dataset whose σ is estimated from the scatter and which holds censored
-/// readings under the fitted model: those count as points with zero residual, so the scatter
-/// estimate s = √(RSS/(n − p)) and the intervals come out too small by about
-/// √((n − n_0 − p)/(n − p)), n_0 the zero residuals.
-fn censoring_warnings(analysis: &Analysis) -> Vec<String> {
-    use crate::experiment::Weighting as W;
-    let e = &analysis.experiment;
-    let n = e.point_count() as f64;
-    let p = analysis.fit.free_names.len() as f64;
-    let mut out = Vec::new();
-    for (d, ds) in e.datasets.iter().enumerate() {
-        let Some(dl) = &ds.detection_limit else {
-            continue;
-        };
-        if ds.weighting == W::Absolute {
-            continue;
-        }
-        let pred = &analysis.predictions[d];
-        let zero = (0..ds.len())
-            .filter(|&i| dl.is_censored(i) && pred.get(i).is_some_and(|&f| f <= dl.limit))
-            .count();
-        if zero == 0 || n - zero as f64 - p <= 0.0 {
-            continue;
-        }
-        let factor = ((n - p) / (n - zero as f64 - p)).sqrt();
-        out.push(format!(
-            "{}: {zero} censored reading(s) lie under the fitted model and count as points with zero residual; with σ estimated from the scatter ({} weighting) the standard errors and intervals are too narrow (they should be about {:.0} % wider). Give absolute σ (sigma or sigma_column) with censoring, or exclude the readings instead",
-            ds.name,
-            match ds.weighting {
-                W::Relative(_) => "relative",
-                _ => "scaled",
-            },
-            (factor - 1.0) * 100.0
-        ));
-    }
-    out
-}
-
 /// Numbers in order, with every run of three or more equally spaced ones written as `a–b`:
 /// `700, 725, 750, 775, 850` → `700–775, 850`.
 fn ranges(xs: &[f64]) -> String {
@@ -683,7 +645,6 @@ impl Report {
                 warnings.push(format!("{}: {}", w.location, w.message));
             }
         }
-        warnings.extend(censoring_warnings(analysis));
         if !f.stop.converged() {
             warnings.insert(0, format!("The fit did not converge: {}", f.stop_message));
         }

@@ -77,10 +77,12 @@ def header():
          "'SciPy', scipy.__version__)"],
         capture_output=True, text=True).stdout.strip()
     commit = shell("git rev-parse --short HEAD")
+    src_commit = shell("git log -1 --format=%h -- src Cargo.toml Cargo.lock")
     dirty = " (with uncommitted changes)" if shell("git status --porcelain -- src Cargo.toml") else ""
     lines = [
         f"# {time.strftime('%Y-%m-%d %H:%M UTC', time.gmtime())}",
-        f"# fickfit: {shell(FICKFIT + ' --version')}, commit {commit}{dirty}, release build",
+        f"# fickfit: {shell(FICKFIT + ' --version')}, commit {commit}{dirty} (src/ last changed "
+        f"in {src_commit}), release build",
         f"# {versions}",
         "# lscpu | head:",
     ]
@@ -96,6 +98,7 @@ def main():
     ap = argparse.ArgumentParser()
     ap.add_argument("--repeats", type=int, default=5)
     ap.add_argument("--profile-repeats", type=int, default=3)
+    ap.add_argument("--raw", help="also write every wall time to this JSON file")
     args = ap.parse_args()
     print(header())
     print(f"# uptime before: {shell('uptime')}")
@@ -133,6 +136,11 @@ def main():
         prof_times[s] = walls
     print("# profile runs done", file=sys.stderr)
     print(f"# uptime after: {shell('uptime')}")
+    if args.raw:
+        with open(args.raw, "w") as f:
+            json.dump({"fickfit_fit": ff_times, "fickfit_profile": prof_times,
+                       "scipy_fit_in_script": sp_fit_times, "scipy_process": sp_times}, f, indent=1)
+        print(f"# every wall time: {args.raw}")
     print(f"# {args.repeats} rounds of fit pairs, {args.profile_repeats} profile runs per "
           "scenario; medians below")
 
@@ -160,8 +168,10 @@ def main():
     print()
     print("| scenario | points | SciPy cells | fickfit fit (Jacobian intervals) "
           "| fickfit fit --profile | profile intervals "
-          "| SciPy fit (in script) | SciPy process | ratio SciPy fit / fickfit fit |")
-    print("| --- | --- | --- | --- | --- | --- | --- | --- | --- |")
+          "| SciPy fit (in script) | SciPy process | ratio SciPy fit / fickfit fit "
+          f"| targets met (fit < {FIT_TARGET_S} s, ≥ {RATIO_TARGET:.0f}×, profile < "
+          f"{PROFILE_TARGET_S} s) |")
+    print("| --- | --- | --- | --- | --- | --- | --- | --- | --- | --- |")
     met = {"fit": 0, "ratio": 0, "profile": 0}
     for s in SCENARIOS:
         ff = statistics.median(ff_times[s])
@@ -174,12 +184,13 @@ def main():
         got = sum(1 for p in params if p.get("profile") and p["profile"].get("low") is not None
                   and p["profile"].get("high") is not None)
         free = sum(1 for p in params if not p.get("fixed"))
-        met["fit"] += ff < FIT_TARGET_S
-        met["ratio"] += ratio >= RATIO_TARGET
-        met["profile"] += pr < PROFILE_TARGET_S and got == free
+        ok = (ff < FIT_TARGET_S, ratio >= RATIO_TARGET, pr < PROFILE_TARGET_S and got == free)
+        for key, v in zip(("fit", "ratio", "profile"), ok):
+            met[key] += v
         n = ff_last[s]["fit"]["n_points"]
-        print(f"| {s} | {n} | {sp_last[s]['cells']} | {ff:.3f} s | {pr:.3f} s | {got} of {free} "
-              f"| {spf:.2f} s | {spw:.2f} s | {ratio:.1f}× |")
+        marks = ", ".join("yes" if v else "no" for v in ok)
+        print(f"| {s} | {n} | {sp_last[s]['cells']} | {ff:.4f} s | {pr:.4f} s | {got} of {free} "
+              f"| {spf:.2f} s | {spw:.2f} s | {ratio:.1f}× | {marks} |")
     k = len(SCENARIOS)
     print()
     print(f"Targets: fit with Jacobian intervals under {FIT_TARGET_S} s on {met['fit']} of {k}; "

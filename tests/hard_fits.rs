@@ -415,32 +415,60 @@ fn strong_d_h_correlation_is_named_and_intervals_stay_honest() {
     assert_honest(&a, "h", 2.0 * D_TRUE / (L / 2.0), false);
 }
 
+/// The same data fitted from the truth: the optimum a far start should reach.
+fn far_start_reference() -> Analysis {
+    let t = times(2e-3, 1.5, 40);
+    let mg = noisy(&sheet_mg(&t), SIGMA_MG, 14);
+    Trap::new(
+        &t,
+        &mg,
+        &experiment_text("value", &params_d_m("1e-12 m2/s"), ""),
+    )
+    .analyse()
+}
+
+/// Whether `a` reached the optimum of the fit started at the truth (D within a hundredth of a
+/// standard error: both searches stop within about 1e-3 standard errors of the optimum).
+fn reached_reference(a: &Analysis, reference: &Analysis) -> bool {
+    let k = index(reference, "D");
+    let se = reference.fit.parameters[k]
+        .std_error
+        .unwrap_or(f64::INFINITY);
+    (a.fit.estimates[k] - reference.fit.estimates[k]).abs() <= 1e-2 * se
+}
+
 #[test]
 fn a_start_six_decades_below_finds_the_truth_or_says_it_did_not() {
-    // Observed (2026-12-02): from D six decades too small the search stalls where the model
-    // predicts almost no uptake; it is not recovered. What fickfit must then do: give D an
-    // interval that still covers the truth (here it spans many decades) and name D in a
-    // warning (here: D and M_inf correlated, ill-conditioned), never a tight wrong interval.
+    // Either the search reaches the optimum it reaches from the truth, or (observed
+    // 2026-12-02, before the relative-offset stop and the moderate initial damping) it stalls
+    // where the model predicts almost no uptake. Then fickfit must give D an interval that
+    // still covers the truth (it spans many decades) and name D in a warning (D and M_inf
+    // correlated, ill-conditioned), never a tight wrong interval.
     let a = trap_far_start(true).analyse();
     let info = describe(&a);
     eprintln!("{info}");
-    let (lo, hi) = interval(&a, "D").unwrap();
-    let recovered = lo < D_TRUE && D_TRUE < hi && hi / lo < 1.2;
-    if !recovered {
-        assert!(lo <= D_TRUE && D_TRUE <= hi, "{info}");
-        assert!(warned_about(&a, "D"), "D not flagged\n{info}");
+    if reached_reference(&a, &far_start_reference()) {
+        return;
     }
+    let (lo, hi) = interval(&a, "D").unwrap();
+    assert!(lo <= D_TRUE && D_TRUE <= hi, "{info}");
+    assert!(warned_about(&a, "D"), "D not flagged\n{info}");
 }
 
 #[test]
 fn a_start_six_decades_above_finds_the_truth_or_says_it_did_not() {
+    // Observed 2026-12-04: from D six decades too large the search now reaches the optimum it
+    // reaches from the truth (whose interval, for this noise draw, lies 2.3 standard errors
+    // above the true D: a property of the data, shared by every start). Observed 2026-12-02:
+    // it stalled on the plateau where the sample is saturated at once. When it stalls, the fit
+    // must be flagged as not describing the data (systematic residuals, or chi-square far
+    // above its degrees of freedom), or as not converged.
     let a = trap_far_start(false).analyse();
     let info = describe(&a);
     eprintln!("{info}");
-    // Observed (2026-12-02): from D six decades too large the search stalls on the plateau
-    // where the sample is saturated at once; it is not recovered. The fit is then flagged as
-    // not describing the data (systematic residuals, or chi-square far above its degrees of
-    // freedom), or as not converged.
+    if reached_reference(&a, &far_start_reference()) {
+        return;
+    }
     let flagged = a.fit.warnings.iter().any(|w| {
         matches!(
             w.kind,

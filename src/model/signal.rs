@@ -59,6 +59,21 @@ impl Signal {
         }
     }
 
+    /// The smallest and largest value the signal takes.
+    pub fn range(&self) -> (f64, f64) {
+        match self {
+            Signal::Constant(v) => (*v, *v),
+            Signal::Table(rows) => rows
+                .iter()
+                .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), r| {
+                    (a.min(r.1), b.max(r.1))
+                }),
+            Signal::Periodic {
+                mean, amplitude, ..
+            } => (mean - amplitude.abs(), mean + amplitude.abs()),
+        }
+    }
+
     /// Check finite values and increasing times; `name` names the setting.
     pub fn validate(&self, name: &str) -> Result<()> {
         match self {

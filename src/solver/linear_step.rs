@@ -64,12 +64,14 @@ pub(crate) struct Vectors<'a> {
     pub delta: &'a mut [f64],
 }
 
-/// Weights of the error norm: component i is weighted by `tol (s + max(|u_i|, |u_n,i|))`,
-/// with `s = max(scale, max_i |u_i|)` (1 when that is 0).
+/// Weight of the error norm: every component is weighted by `tol · s`, with
+/// `s = max(scale, max_i |u_i − reference|)` (`max(|reference|, 1)` when that is 0): the span
+/// the values cover, not their level.
 #[derive(Debug, Clone, Copy)]
 pub(crate) struct ErrorWeights {
     pub tolerance: f64,
     pub scale: f64,
+    pub reference: f64,
 }
 
 /// What a step reports.
@@ -202,6 +204,7 @@ pub(crate) fn step<const ESTIMATE: bool>(
     let mut ye = 0.0;
     let mut sum = 0.0;
     let mut umax = 0.0f64;
+    let reference = weights.reference;
     for i in 0..n {
         let qi = if i > 0 { q(i) } else { 0.0 };
         d2 = z[i] - qi * d2;
@@ -211,7 +214,7 @@ pub(crate) fn step<const ESTIMATE: bool>(
         let f1 = (d2 - est[i]) * inv_c;
         f_1[i] = f1;
         if ESTIMATE {
-            umax = umax.max(x.abs());
+            umax = umax.max((x - reference).abs());
             let r = e0 * f_n[i] - e1 * f_g[i] + e2 * f1;
             let mi = if i > 0 { m(i) } else { 0.0 };
             ye = r - mi * ye;
@@ -229,24 +232,17 @@ pub(crate) fn step<const ESTIMATE: bool>(
 
     // Sweep D (up): the estimate's LU back-substitution and its weighted RMS norm.
     let s = weights.scale.max(umax);
-    let s = if s > 0.0 { s } else { 1.0 };
-    let tol = weights.tolerance;
+    let s = if s > 0.0 { s } else { reference.abs().max(1.0) };
     let mut e = est[n - 1];
-    let mut acc = {
-        let wt = tol * (s + u[n - 1].abs().max(u_n[n - 1].abs()));
-        let r = e / wt;
-        r * r
-    };
+    let mut acc = e * e;
     for i in (0..n - 1).rev() {
         e = est[i] - g(i) * e;
         est[i] = e;
-        let wt = tol * (s + u[i].abs().max(u_n[i].abs()));
-        let r = e / wt;
-        acc += r * r;
+        acc += e * e;
     }
     Outcome {
         finite,
         measure_sum: sum,
-        error_norm: (acc / n as f64).sqrt(),
+        error_norm: (acc / n as f64).sqrt() / (weights.tolerance * s),
     }
 }

@@ -244,6 +244,9 @@ pub struct Solver {
     /// Whether each stop is a row of a boundary time table (a step must end there).
     is_break: Vec<bool>,
     stencils: Vec<Option<Stencil>>,
+    /// Lowest value of the problem (error-control reference), and the span of its values.
+    value_reference: f64,
+    value_span: f64,
     /// The cells the observables read (end cells and the stencils' cells), for interpolation.
     read_cells: Vec<usize>,
     at_stops: Vec<f64>,
@@ -287,6 +290,8 @@ impl Solver {
             order: Vec::new(),
             is_output: Vec::new(),
             is_break: Vec::new(),
+            value_reference: 0.0,
+            value_span: 0.0,
             read_cells: Vec::new(),
             stencils: Vec::new(),
             at_stops: Vec::new(),
@@ -534,13 +539,31 @@ impl Solver {
             f64::NAN
         };
         // Value scale for the error weights.
-        let mut scale = self.work.u.iter().fold(0.0f64, |m, x| m.max(x.abs()));
+        // Value scale of the error control: the span of the values the problem holds (initial
+        // state, end values, ambient), measured from its lowest value. A level far from zero
+        // (temperatures in kelvin) must not loosen the control: what matters is how far the
+        // values move, not where they sit.
+        let (mut lo, mut hi) = self
+            .work
+            .u
+            .iter()
+            .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| {
+                (a.min(x), b.max(x))
+            });
         for end in [&model.left, &model.right] {
             if let EndCondition::Value(s) | EndCondition::Transfer { outside: s, .. } = end {
-                scale = scale.max(s.max_abs());
+                let (a, b) = s.range();
+                lo = lo.min(a);
+                hi = hi.max(b);
             }
         }
-        scale = scale.max(model.sources.exchange_value.abs());
+        if model.sources.exchange_rate != 0.0 {
+            lo = lo.min(model.sources.exchange_value);
+            hi = hi.max(model.sources.exchange_value);
+        }
+        let scale = (hi - lo).max(0.0);
+        self.value_reference = lo;
+        self.value_span = scale;
 
         // Linear problems: constant Jacobian, F = J u + b(t), assembled once per solve.
         if linear {
@@ -677,18 +700,15 @@ impl Solver {
             let enorm = if let (true, Some(o)) = (adaptive, linear_outcome) {
                 o.error_norm
             } else if adaptive {
-                let mut sc = scale;
-                for x in &w.u {
-                    sc = sc.max(x.abs());
-                }
-                let sc = if sc > 0.0 { sc } else { 1.0 };
-                let mut sum = 0.0;
-                for i in 0..n {
-                    let wt = tol * (sc + w.u[i].abs().max(w.u_n[i].abs()));
-                    let e = w.est[i] / wt;
-                    sum += e * e;
-                }
-                (sum / n as f64).sqrt()
+                let reference = self.value_reference;
+                let sc = w.u.iter().fold(scale, |m, x| m.max((x - reference).abs()));
+                let sc = if sc > 0.0 {
+                    sc
+                } else {
+                    reference.abs().max(1.0)
+                };
+                let sum: f64 = w.est.iter().map(|e| e * e).sum();
+                (sum / n as f64).sqrt() / (tol * sc)
             } else {
                 0.0
             };
@@ -931,13 +951,18 @@ impl Solver {
                 return false;
             }
             let w = &mut self.work;
-            let mut scale = 0.0f64;
+            let reference = self.value_reference;
+            let mut scale = self.value_span;
             for i in 0..n {
                 w.delta[i] = w.rhs[i] + c * w.fe[i] - w.u[i];
-                scale = scale.max(w.u[i].abs());
+                scale = scale.max((w.u[i] - reference).abs());
             }
             w.fact.solve(&mut w.delta);
-            let scale = if scale > 0.0 { scale } else { 1.0 };
+            let scale = if scale > 0.0 {
+                scale
+            } else {
+                reference.abs().max(1.0)
+            };
             let mut dmax = 0.0f64;
             for i in 0..n {
                 w.u[i] += w.delta[i];
@@ -1010,6 +1035,7 @@ impl Solver {
         let weights = linear_step::ErrorWeights {
             tolerance: self.options.tolerance,
             scale,
+            reference: self.value_reference,
         };
         let measures = &self.grid.measures;
         let out = if estimate {

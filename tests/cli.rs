@@ -700,12 +700,14 @@ fn has_staging(dir: &Path) -> bool {
 }
 
 /// Hidden entries of `dir` (staging folders, temporary files).
+/// Hidden files and folders of `dir` other than the committed list of report files
+/// (`.fickfit-report-files`, see src/report/folder.rs): staging leftovers.
 fn hidden_files(dir: &Path) -> Vec<String> {
     std::fs::read_dir(dir)
         .map(|rd| {
             rd.flatten()
                 .map(|e| e.file_name().to_string_lossy().into_owned())
-                .filter(|n| n.starts_with('.'))
+                .filter(|n| n.starts_with('.') && n != ".fickfit-report-files")
                 .collect()
         })
         .unwrap_or_default()

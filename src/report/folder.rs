@@ -10,6 +10,12 @@
 //! removed by the next run into the same folder (on Linux, once its process is gone). A single
 //! file outside a report ([`write_atomic`]) goes through a temporary sibling and a rename.
 //!
+//! A commit also records the names it moved in a hidden list (`.fickfit-report-files`). The next
+//! commit into the same folder (with `--force`) removes the files of that list it did not
+//! write again, so a report never mixes with leftovers of an earlier one (a profile panel of a
+//! run with `--profile`, say); files the user put in the folder are never on that list and are
+//! never touched.
+//!
 //! Every staging folder and temporary file not yet committed is also listed in this process
 //! ([`abandon_pending`]), so a program that is asked to stop (Ctrl-C) can remove them, and the
 //! report folder it created, before it exits: nothing is then left behind at all. A run killed
@@ -118,6 +124,9 @@ fn remove_stale_staging(dir: &Path) {
     }
 }
 
+/// The hidden list of the files the last commit wrote into a report folder.
+const MANIFEST: &str = ".fickfit-report-files";
+
 impl ReportFolder {
     /// Open `dir` for writing: create it if missing; refuse a non-empty folder unless `force`.
     /// Nothing is visible in `dir` until [`ReportFolder::commit`].
@@ -188,8 +197,9 @@ impl ReportFolder {
         write_atomic(&self.staged(name), fill)
     }
 
-    /// Move every staged file into the folder (replacing files of the same name) and remove
-    /// the staging folder. Returns the names moved, sorted.
+    /// Move every staged file into the folder (replacing files of the same name), remove the
+    /// files an earlier commit wrote that this one did not write again, record the names and
+    /// remove the staging folder. Returns the names moved, sorted.
     pub fn commit(mut self) -> Result<Vec<String>> {
         let io_err = |path: &Path| {
             let path = path.to_path_buf();
@@ -204,12 +214,30 @@ impl ReportFolder {
             .filter(|n| !n.starts_with('.'))
             .collect();
         names.sort();
+        // The new list of files, staged like the files (before the lock: writing takes it).
+        let manifest = self.dir.join(MANIFEST);
+        let staged_manifest = self.staging.join(MANIFEST);
+        let mut listed = names.join("\n");
+        listed.push('\n');
+        write_atomic(&staged_manifest, |w| w.write_all(listed.as_bytes()))?;
+        let previous = fs::read_to_string(&manifest).unwrap_or_default();
         // Held while the files move: an interrupt waits for the commit to finish.
         let mut list = pending();
         for n in &names {
             let target = self.dir.join(n);
             fs::rename(self.staging.join(n), &target).map_err(io_err(&target))?;
         }
+        for stale in previous.lines().map(str::trim) {
+            // Only plain names this program wrote: never a path out of the folder.
+            let plain = !stale.is_empty()
+                && !stale.starts_with('.')
+                && !stale.contains(['/', '\\'])
+                && Path::new(stale).file_name() == Some(std::ffi::OsStr::new(stale));
+            if plain && !names.iter().any(|n| n == stale) {
+                let _ = fs::remove_file(self.dir.join(stale));
+            }
+        }
+        fs::rename(&staged_manifest, &manifest).map_err(io_err(&manifest))?;
         fs::remove_dir_all(&self.staging).map_err(io_err(&self.staging))?;
         forget(&mut list, &self.staging);
         self.committed = true;
@@ -294,6 +322,45 @@ mod tests {
             fs::read_to_string(dir.path().join("report.json")).unwrap(),
             "{}"
         );
+    }
+
+    #[test]
+    fn a_forced_report_removes_the_files_of_the_previous_one_but_not_the_users() {
+        let dir = tempfile::tempdir().unwrap();
+        let f = ReportFolder::create(dir.path(), false).unwrap();
+        for name in ["report.json", "profile-D.svg"] {
+            f.write_with(name, |w| w.write_all(b"old")).unwrap();
+        }
+        f.commit().unwrap();
+        fs::write(dir.path().join("notes.txt"), "mine").unwrap();
+        let f = ReportFolder::create(dir.path(), true).unwrap();
+        f.write_with("report.json", |w| w.write_all(b"new"))
+            .unwrap();
+        assert_eq!(f.commit().unwrap(), vec!["report.json".to_string()]);
+        // The earlier report's profile panel is gone; the new report and the user's file stay.
+        assert!(!dir.path().join("profile-D.svg").exists());
+        assert_eq!(
+            fs::read_to_string(dir.path().join("report.json")).unwrap(),
+            "new"
+        );
+        assert_eq!(
+            fs::read_to_string(dir.path().join("notes.txt")).unwrap(),
+            "mine"
+        );
+        // A list naming something outside the folder is not followed.
+        let outside = tempfile::tempdir().unwrap();
+        let victim = outside.path().join("keep.txt");
+        fs::write(&victim, "keep").unwrap();
+        fs::write(
+            dir.path().join(MANIFEST),
+            format!("report.json\n{}\n../keep.txt\n", victim.display()),
+        )
+        .unwrap();
+        let f = ReportFolder::create(dir.path(), true).unwrap();
+        f.write_with("report.json", |w| w.write_all(b"newer"))
+            .unwrap();
+        f.commit().unwrap();
+        assert_eq!(fs::read_to_string(&victim).unwrap(), "keep");
     }
 
     #[test]

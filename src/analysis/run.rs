@@ -212,15 +212,17 @@ pub fn analyse(experiment: Arc<Experiment>, options: &AnalysisOptions) -> Result
 /// The search settings of every fit of an experiment (the main fit and the refits of its
 /// checks): the experiment file's iteration limit (which also bounds the Nelder–Mead fallback,
 /// 25 simplex iterations per LM iteration: 5000 at the default 200) and relative-reduction
-/// tolerance, the relative-offset stop and a moderate initial damping (`λ₀ = s_max²`; the
+/// tolerance, the relative-offset stop and a light initial damping (`λ₀ = 0.01 s_max²`; the
 /// engine's default of 100 s_max² serves certified problems started far from their optimum,
-/// while experiment fits start from shortcut estimates or the user's values).
+/// while experiment fits start from shortcut estimates or the user's values; over the bundled
+/// samples and a 60-point uptake curve, λ₀ = 1, 0.1, 0.01 and 0.001 s_max² took 528, 445, 392
+/// and 443 residual evaluations in all, measured 2026-12-04).
 pub(crate) fn configure_search(options: &mut FitOptions, experiment: &Experiment) {
     options.lm.max_iterations = experiment.fit.maximum_iterations;
     options.nelder_mead_iterations = 25 * experiment.fit.maximum_iterations as u64;
     options.lm.ftol = experiment.fit.tolerance;
     options.lm.offset_tol = RELATIVE_OFFSET_TOLERANCE;
-    options.lm.initial_damping = 1.0;
+    options.lm.initial_damping = 1e-2;
 }
 
 /// Warnings about the data as seen by the fit, beyond the identifiability checks of the

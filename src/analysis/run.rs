@@ -42,6 +42,9 @@ pub struct AnalysisOptions {
     pub seed: u64,
     /// With absolute σ, multiply the covariance by the reduced χ² (default: trust σ).
     pub rescale_absolute: bool,
+    /// Random extra starts of the search (each internal coordinate within ±1 of its start),
+    /// searched in parallel; the best point wins. Seeded by `seed`.
+    pub random_starts: usize,
 }
 
 impl Default for AnalysisOptions {
@@ -52,6 +55,7 @@ impl Default for AnalysisOptions {
             bootstrap: 0,
             seed: 1,
             rescale_absolute: false,
+            random_starts: 0,
         }
     }
 }
@@ -129,6 +133,8 @@ pub fn analyse(experiment: Arc<Experiment>, options: &AnalysisOptions) -> Result
         ..Default::default()
     };
     configure_search(&mut fit_options, &experiment);
+    fit_options.random_starts = options.random_starts;
+    fit_options.seed = options.seed;
 
     let mut problem = ExperimentProblem::new(experiment.clone())?;
     let n_sets = experiment.datasets.len();

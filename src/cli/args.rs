@@ -96,6 +96,11 @@ pub struct FitArgs {
     /// Seed for the bootstrap and random starts.
     #[arg(long, value_name = "N", default_value_t = 1)]
     pub seed: u64,
+    /// Also search from N random starts around the start values (each internal coordinate
+    /// within ±1 of its start: a factor e either way for a log-scale parameter), in parallel,
+    /// and keep the best: for fits that may have several minima.
+    #[arg(long, value_name = "N", default_value_t = 0)]
+    pub starts: usize,
     /// Also fit this experiment file (the same data with other physics, e.g. D(u) or no
     /// surface resistance) and rank the models by AICc; repeat for more variants.
     #[arg(long, value_name = "EXPERIMENT")]

@@ -49,6 +49,7 @@ pub fn fit(args: &FitArgs) -> anyhow::Result<Outcome> {
         bootstrap: args.bootstrap,
         seed: args.seed,
         rescale_absolute: args.rescale,
+        random_starts: args.starts,
     };
     // Variants to compare are loaded before the fit, so a bad file fails at once.
     let variants = args
@@ -422,6 +423,7 @@ pub fn batch(args: &BatchArgs) -> anyhow::Result<Outcome> {
             bootstrap: args.bootstrap,
             seed: args.seed,
             rescale_absolute: args.rescale,
+            random_starts: 0,
         },
         jobs: args
             .jobs

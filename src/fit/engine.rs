@@ -23,6 +23,7 @@
 
 use rand::rngs::StdRng;
 use rand::{Rng, SeedableRng};
+use rayon::prelude::*;
 use serde::Serialize;
 
 use crate::error::{Error, InputKind, Location, Result};
@@ -291,9 +292,30 @@ pub(crate) fn search<P: ResidualProblem>(
             .collect();
         starts.push(u);
     }
+    // Several starts are searched in parallel, each on its own copy of the problem; the best
+    // is chosen in the order of the starts, so the result does not depend on the threads.
+    let candidates: Vec<(LmOutcome, bool)> = if starts.len() == 1 {
+        vec![search_from(ev, &starts[0], opts)]
+    } else {
+        let copies: Vec<(Evaluator<P>, Vec<f64>)> =
+            starts.iter().map(|u| (ev.clone(), u.clone())).collect();
+        let runs: Vec<((LmOutcome, bool), usize, usize)> = copies
+            .into_par_iter()
+            .map(|(mut own, u)| {
+                let (e0, f0) = (own.evaluations(), own.failures());
+                let found = search_from(&mut own, &u, opts);
+                (found, own.evaluations() - e0, own.failures() - f0)
+            })
+            .collect();
+        let mut out = Vec::with_capacity(runs.len());
+        for (found, evaluations, failures) in runs {
+            ev.add_counts(evaluations, failures);
+            out.push(found);
+        }
+        out
+    };
     let mut best: Option<(LmOutcome, bool)> = None;
-    for u in &starts {
-        let cand = search_from(ev, u, opts);
+    for cand in candidates {
         best = match best {
             Some(b) if !better(&cand.0, &b.0) => Some(b),
             _ => Some(cand),

@@ -276,6 +276,12 @@ impl<P: ResidualProblem> Evaluator<P> {
         self.evaluations
     }
 
+    /// Count evaluations made on a copy of this evaluator (a parallel search).
+    pub(crate) fn add_counts(&mut self, evaluations: usize, failures: usize) {
+        self.evaluations += evaluations;
+        self.failures += failures;
+    }
+
     /// Evaluations that failed or gave non-finite values.
     pub fn failures(&self) -> usize {
         self.failures

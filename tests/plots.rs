@@ -407,6 +407,9 @@ fn residual_figure_has_zero_line_and_markers() {
     assert_eq!(fig.guides[0].value, 0.0);
     let out = to_svg(&fig).expect("renders");
     assert_eq!(out.notes.non_finite, 1);
+    // Negative residuals are drawn on a linear axis (they were once counted as below the
+    // floor of a logarithmic axis and left out).
+    assert_eq!(out.notes.out_of_range, 0, "{:?}", out.notes.messages);
     let texts = svg_texts(&out.svg);
     for needle in ["Residuals", "time [h]", "residual [mg]", "run 1", "run 2"] {
         assert_has_text(&texts, needle);

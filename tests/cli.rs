@@ -921,3 +921,149 @@ fn random_starts_find_the_same_optimum_whatever_the_threads() {
         assert_eq!(b, c, "{}: 1 thread {b}, 2 threads {c}", p["name"]);
     }
 }
+
+/// Uptake of a plane sheet of full thickness L from both faces, τ = D t / L²: J. Crank, *The
+/// Mathematics of Diffusion*, 2nd ed. 1975, eq. 4.18 (from memory), with the short-time form
+/// `M_t/M_∞ = 4 √(τ/π)` (eq. 4.20, first term) below τ = 0.01.
+fn crank_sheet(tau: f64) -> f64 {
+    if tau < 0.01 {
+        return 4.0 * (tau / std::f64::consts::PI).sqrt();
+    }
+    let pi2 = std::f64::consts::PI.powi(2);
+    1.0 - (0..200)
+        .map(|n| {
+            let m = (2 * n + 1) as f64;
+            8.0 / (m * m * pi2) * (-m * m * pi2 * tau).exp()
+        })
+        .sum::<f64>()
+}
+
+/// `(cx, cy)` of every `<circle>` in an SVG document.
+fn svg_circles(svg: &str) -> Vec<(f64, f64)> {
+    let attr = |tag: &str, name: &str| -> Option<f64> {
+        let start = tag.find(&format!(" {name}=\""))? + name.len() + 3;
+        let end = start + tag[start..].find('"')?;
+        tag[start..end].parse().ok()
+    };
+    svg.split("<circle")
+        .skip(1)
+        .filter_map(|t| {
+            let tag = &t[..t.find('>')?];
+            Some((attr(tag, "cx")?, attr(tag, "cy")?))
+        })
+        .collect()
+}
+
+#[test]
+fn a_long_series_gives_small_figures_that_keep_the_extreme_residual() {
+    use rand::{rngs::StdRng, SeedableRng};
+    use rand_distr::{Distribution, Normal};
+    use std::fmt::Write as _;
+    // An invented film, 100 µm thick, D = 3e-13 m²/s, weighed every 0.167 s for 9.3 h
+    // (2·10⁵ readings, balance noise 0.002 mg), one reading 0.05 mg (25 σ) too high.
+    let n = 200_000;
+    let planted = 123_457;
+    let (d, l) = (3e-13, 100e-6);
+    let t_end = l * l / d;
+    let mut rng = StdRng::seed_from_u64(31);
+    let noise = Normal::new(0.0, 0.002).unwrap();
+    let mut csv = String::from("time [s],mass [mg]\n");
+    for k in 1..=n {
+        let t = t_end * k as f64 / n as f64;
+        let mut m = 12.5 + 0.8 * crank_sheet(d * t / (l * l)) + noise.sample(&mut rng);
+        if k - 1 == planted {
+            m += 0.05;
+        }
+        writeln!(csv, "{t:.6},{m:.6}").unwrap();
+    }
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(dir.path().join("long.csv"), csv).unwrap();
+    let experiment = r#"title = "long uptake log"
+[sample]
+shape = "slab"
+value_unit = "mg/cm3"
+thickness = "100 um"
+diffusivity = "D"
+[ends.left]
+value = 1.0
+[ends.right]
+value = 1.0
+[initial]
+value = 0.0
+[parameters.D]
+lower = "1e-18 m2/s"
+upper = "1e-8 m2/s"
+transform = "log"
+[parameters.M_inf]
+unit = "mg"
+[parameters.m0]
+unit = "mg"
+[[datasets]]
+name = "uptake"
+file = "long.csv"
+layout = "time_series"
+observe = "fractional_uptake"
+time_column = "time"
+value_column = "mass"
+sigma = "0.002 mg"
+weighting = "absolute"
+scale = "M_inf"
+offset = "m0"
+"#;
+    std::fs::write(dir.path().join("long.toml"), experiment).unwrap();
+    let out_dir = dir.path().join("report");
+    let out = bin()
+        .arg("fit")
+        .arg(dir.path().join("long.toml"))
+        .arg("--out")
+        .arg(&out_dir)
+        .arg("--quiet")
+        .output()
+        .unwrap();
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    // Every figure is small; the data files keep every point.
+    for entry in std::fs::read_dir(&out_dir).unwrap() {
+        let path = entry.unwrap().path();
+        let size = std::fs::metadata(&path).unwrap().len();
+        let name = path.file_name().unwrap().to_string_lossy().to_string();
+        if name.ends_with(".svg") || name.ends_with(".png") {
+            assert!(size < 1_000_000, "{name}: {size} bytes");
+        }
+        if name == "report.html" {
+            assert!(size < 4_000_000, "{name}: {size} bytes");
+        }
+    }
+    let fitted = std::fs::read_to_string(out_dir.join("fitted.csv")).unwrap();
+    let rows = fitted.lines().filter(|l| l.starts_with("uptake,")).count();
+    assert_eq!(rows, n, "fitted.csv rows");
+    let html = std::fs::read_to_string(out_dir.join("report.html")).unwrap();
+    assert!(
+        html.contains("of 200 000 points are shown"),
+        "caption of a thinned figure"
+    );
+    assert!(
+        html.contains("of 200 000 residuals are shown"),
+        "caption of the Q–Q plot"
+    );
+    // The planted reading is the highest residual marker, far above the noise band: if it
+    // were thinned away, the top marker would sit on the band's edge.
+    let svg = std::fs::read_to_string(out_dir.join("residuals-uptake.svg")).unwrap();
+    assert!(svg.contains("of 200 000 points shown"));
+    // The legend's sample marker is drawn last.
+    let mut circles = svg_circles(&svg);
+    circles.pop();
+    let mut cy: Vec<f64> = circles.iter().map(|&(_, y)| y).collect();
+    cy.sort_by(f64::total_cmp);
+    assert!(cy.len() > 1000 && cy.len() < 4000, "{} markers", cy.len());
+    let band = cy[cy.len() - 1] - cy[1];
+    let gap = cy[1] - cy[0];
+    assert!(
+        gap > 1.5 * band,
+        "top marker gap {gap} px, noise band {band} px"
+    );
+}

@@ -11,6 +11,9 @@ use fickfit::report::plot::{
     qq_figure, residual_figure, to_png, to_svg, ArrheniusLine, Figure, Guide, LegendPosition,
     ProfileCurve, Series, SeriesKind, Stroke, DEFAULT_HEIGHT, DEFAULT_WIDTH,
 };
+use fickfit::report::plot::{
+    thin_markers, thinned_note, DRAW_ALL_UP_TO, DRAW_BINS, QQ_SPACED, QQ_TAIL,
+};
 use fickfit::Error;
 use quick_xml::events::Event;
 use quick_xml::Reader;
@@ -407,6 +410,9 @@ fn residual_figure_has_zero_line_and_markers() {
     assert_eq!(fig.guides[0].value, 0.0);
     let out = to_svg(&fig).expect("renders");
     assert_eq!(out.notes.non_finite, 1);
+    // Negative residuals are drawn on a linear axis (they were once counted as below the
+    // floor of a logarithmic axis and left out).
+    assert_eq!(out.notes.out_of_range, 0, "{:?}", out.notes.messages);
     let texts = svg_texts(&out.svg);
     for needle in ["Residuals", "time [h]", "residual [mg]", "run 1", "run 2"] {
         assert_has_text(&texts, needle);
@@ -767,4 +773,84 @@ mod fuzz {
             svg_texts(&out.svg);
         }
     }
+}
+
+/// A seeded Gaussian series of `n` residuals (σ = 1) against time, one planted extreme.
+fn long_residuals(n: usize, extreme_at: usize, extreme: f64) -> (Vec<f64>, Vec<f64>) {
+    use rand::{rngs::StdRng, SeedableRng};
+    use rand_distr::{Distribution, Normal};
+    let mut rng = StdRng::seed_from_u64(2024);
+    let normal = Normal::new(0.0, 1.0).expect("unit normal");
+    let t: Vec<f64> = (0..n).map(|i| 0.1 * i as f64).collect();
+    let mut r: Vec<f64> = (0..n).map(|_| normal.sample(&mut rng)).collect();
+    r[extreme_at] = extreme;
+    (t, r)
+}
+
+#[test]
+fn a_million_residuals_are_thinned_for_drawing_and_keep_their_extremes() {
+    let n = 1_000_000;
+    let (t, r) = long_residuals(n, 654_321, -9.5);
+    let (series, before) = thin_markers(Series::markers("residuals", t.clone(), r.clone()));
+    assert_eq!(before, Some(n));
+    assert!(series.x.len() <= 2 * DRAW_BINS, "{} drawn", series.x.len());
+    // The extreme residual and the largest one are among the drawn points, at their times.
+    let max_at = (0..n)
+        .max_by(|&a, &b| r[a].total_cmp(&r[b]))
+        .expect("points");
+    for i in [654_321, max_at] {
+        assert!(
+            series
+                .x
+                .iter()
+                .zip(&series.y)
+                .any(|(&x, &y)| x == t[i] && y == r[i]),
+            "point {i} ({}, {}) not drawn",
+            t[i],
+            r[i]
+        );
+    }
+    let mut fig = residual_figure("Residuals", "time [s]", "residual [mg]", vec![series]);
+    fig.notes
+        .push(thinned_note(fig.series[0].x.len(), n, "bin extremes"));
+    let out = to_svg(&fig).expect("renders");
+    assert!(out.svg.len() < 1_000_000, "SVG of {} bytes", out.svg.len());
+    assert_eq!(out.notes.out_of_range + out.notes.non_finite, 0);
+    assert!(out.svg.contains("of 1 000 000 points shown: bin extremes"));
+    check_png(&fig);
+
+    // The normal Q–Q plot of the same residuals: both tails in full, a small file.
+    let start = Instant::now();
+    let fig = qq_figure(&r);
+    let markers = fig.series.last().expect("markers");
+    assert!(markers.x.len() <= QQ_SPACED + 2 * QQ_TAIL);
+    let mut sorted = r.clone();
+    sorted.sort_by(f64::total_cmp);
+    assert_eq!(markers.y[..QQ_TAIL], sorted[..QQ_TAIL]);
+    assert_eq!(
+        markers.y[markers.y.len() - QQ_TAIL..],
+        sorted[n - QQ_TAIL..]
+    );
+    assert_eq!(markers.label, "residuals (n = 1000000)");
+    // The plotting positions are those of the whole sample: the smallest is Φ⁻¹(0.625 /
+    // (n + 0.25)) (Blom 1958), −4.9 for n = 10⁶ (common practice: Φ⁻¹(6.25e-7) ≈ −4.85).
+    assert!((markers.x[0] + 4.85).abs() < 0.02, "{}", markers.x[0]);
+    let out = to_svg(&fig).expect("renders");
+    assert!(out.svg.len() < 1_000_000, "SVG of {} bytes", out.svg.len());
+    assert!(out.svg.contains("of 1 000 000 points shown"));
+    eprintln!(
+        "Q-Q figure of 10^6 residuals built and drawn in {:?}",
+        start.elapsed()
+    );
+}
+
+#[test]
+fn short_series_are_drawn_whole() {
+    let (t, r) = long_residuals(DRAW_ALL_UP_TO, 10, 5.0);
+    let (series, before) = thin_markers(Series::markers("residuals", t.clone(), r.clone()));
+    assert_eq!(before, None);
+    assert_eq!((series.x, series.y), (t, r.clone()));
+    let fig = qq_figure(&r);
+    assert_eq!(fig.series.last().map(|s| s.x.len()), Some(DRAW_ALL_UP_TO));
+    assert!(fig.notes.is_empty());
 }

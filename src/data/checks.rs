@@ -68,6 +68,17 @@
 //!    confirmed; the others go back, and every point is judged (steps 1–6) with only the
 //!    confirmed ones set aside.
 //!
+//! *Computation.* The rule above is computed in time linear in the number of points, with
+//! exactly the numbers of a fresh computation of every fit for every suspect (a test
+//! compares the two, flag for flag and bit for bit): on the point-number axis an interior
+//! point's fits have fixed weights (a filter computed once, ends and points next to a
+//! set-aside one fitted on their own); a window's fits without one neighbour share its
+//! scaling and powers; setting a suspect aside or putting it back refits only the points
+//! within a window's reach; and the medians behind `σ̂` are found by one counting pass within
+//! a bracket estimated from a sample, not by sorting. The fits of every point are computed
+//! once per value scale and abscissa (in parallel blocks); a million uniformly sampled
+//! points take a few tenths of a second, about three times that with irregular times.
+//!
 //! At most [`MAX_OUTLIER_WARNINGS`] points are named per series; the rest are counted in one
 //! further warning. The false-alarm and detection rates on seeded synthetic curves are
 //! asserted in this module's tests (0 false alarms in 3200 clean series of 16 kinds; 98.6 %
@@ -230,11 +241,43 @@ struct Prediction {
     weight_sq: f64,
 }
 
-/// Least-squares polynomial of degree at most `degree` through the points `(u_j, z_j)`,
-/// evaluated at `u = 0`. The degree is lowered when the abscissae do not determine it (too
-/// few distinct values, or a near-singular normal matrix). `None` with no point.
+/// The weights `w_j` of a local least-squares prediction at `u = 0`, which depend on the
+/// abscissae only, and `Σ_j w_j²`.
+#[derive(Debug, Clone, Copy)]
+struct Weights {
+    w: [f64; 2 * HALF_WINDOW + 1],
+    len: usize,
+    weight_sq: f64,
+}
+
+impl Weights {
+    /// The prediction `Σ_j w_j z_j` (summed in order) from the values `z_j`.
+    fn apply(&self, z: impl IntoIterator<Item = f64>) -> Prediction {
+        let mut value = 0.0;
+        for (&w, zj) in self.w[..self.len].iter().zip(z) {
+            value += w * zj;
+        }
+        Prediction {
+            value,
+            weight_sq: self.weight_sq,
+        }
+    }
+}
+
+/// Least-squares polynomial of degree at most `degree` through the points `(u_j, z_j)`
+/// (`u` and `z` of one length), evaluated at `u = 0`. The degree is lowered when the
+/// abscissae do not determine it (too few distinct values, or a near-singular normal
+/// matrix). `None` with no point.
+#[cfg(test)]
 fn predict_at_zero(u: &[f64], z: &[f64], degree: usize) -> Option<Prediction> {
     let n = u.len().min(z.len());
+    fit_weights(&u[..n], degree).map(|w| w.apply(z.iter().copied()))
+}
+
+/// The weights of [`predict_at_zero`] for the abscissae `u` (at most `2 HALF_WINDOW + 1`
+/// are used). `None` with no point.
+fn fit_weights(u: &[f64], degree: usize) -> Option<Weights> {
+    let n = u.len().min(2 * HALF_WINDOW + 1);
     if n == 0 {
         return None;
     }
@@ -245,26 +288,35 @@ fn predict_at_zero(u: &[f64], z: &[f64], degree: usize) -> Option<Prediction> {
         1.0
     };
     let mut s = [0.0f64; 2 * HALF_WINDOW + 1];
-    let s = &mut s[..n.min(2 * HALF_WINDOW + 1)];
+    let s = &mut s[..n];
     for (sj, &uj) in s.iter_mut().zip(u) {
         *sj = uj / span;
     }
-    let mut sorted = [0.0f64; 2 * HALF_WINDOW + 1];
-    let sorted = &mut sorted[..s.len()];
-    sorted.copy_from_slice(s);
-    sorted.sort_unstable_by(f64::total_cmp);
-    let distinct = 1 + sorted.windows(2).filter(|w| w[1] - w[0] > 1e-9).count();
+    // A window's abscissae come in series order, so are sorted already but for a
+    // pathological input; the count of distinct values is the same either way.
+    let distinct = if s.windows(2).all(|w| w[0] <= w[1]) {
+        1 + s.windows(2).filter(|w| w[1] - w[0] > 1e-9).count()
+    } else {
+        let mut sorted = [0.0f64; 2 * HALF_WINDOW + 1];
+        let sorted = &mut sorted[..n];
+        sorted.copy_from_slice(s);
+        sorted.sort_unstable_by(f64::total_cmp);
+        1 + sorted.windows(2).filter(|w| w[1] - w[0] > 1e-9).count()
+    };
     let mut d = degree.min(distinct - 1).min(2);
     loop {
         if let Some(v) = solve_normal(s, d) {
-            let mut value = 0.0;
-            let mut weight_sq = 0.0;
-            for (&sj, &zj) in s.iter().zip(z) {
+            let mut out = Weights {
+                w: [0.0; 2 * HALF_WINDOW + 1],
+                len: n,
+                weight_sq: 0.0,
+            };
+            for (wj, &sj) in out.w.iter_mut().zip(s.iter()) {
                 let w = v[0] + v[1] * sj + v[2] * sj * sj;
-                value += w * zj;
-                weight_sq += w * w;
+                *wj = w;
+                out.weight_sq += w * w;
             }
-            return Some(Prediction { value, weight_sq });
+            return Some(out);
         }
         if d == 0 {
             return None;
@@ -316,6 +368,218 @@ fn solve_normal(s: &[f64], d: usize) -> Option<[f64; 3]> {
     Some(v)
 }
 
+/// `solve_normal(s, 2)` from the power sums `power[k] = Σ_j s_j^k` (k ≤ 4) of `len`
+/// abscissae: the same operations in the same order, written out for three unknowns (the
+/// usual case, and the one that must be fast).
+fn solve_normal_3(power: &[f64; 5], len: usize) -> Option<[f64; 3]> {
+    let mut a = [
+        [power[0], power[1], power[2], 1.0],
+        [power[1], power[2], power[3], 0.0],
+        [power[2], power[3], power[4], 0.0],
+    ];
+    let tiny = 1e-10 * len as f64;
+    for col in 0..3 {
+        // The last of equal pivots, as `max_by` picks.
+        let mut pivot = col;
+        for p in col + 1..3 {
+            if a[pivot][col].abs().total_cmp(&a[p][col].abs()) != std::cmp::Ordering::Greater {
+                pivot = p;
+            }
+        }
+        if a[pivot][col].abs() <= tiny {
+            return None;
+        }
+        a.swap(col, pivot);
+        let pivot_row = a[col];
+        for (r, row) in a.iter_mut().enumerate() {
+            if r != col {
+                let f = row[col] / pivot_row[col];
+                for c in col..4 {
+                    row[c] -= f * pivot_row[c];
+                }
+            }
+        }
+    }
+    Some([a[0][3] / a[0][0], a[1][3] / a[1][1], a[2][3] / a[2][2]])
+}
+
+/// The scaled abscissae of one window and their powers, shared by the window's fit and its
+/// fits without one neighbour ([`Window::weights`]); each gives the same numbers as
+/// [`fit_weights`] on its own abscissae.
+struct Window {
+    u: [f64; 2 * HALF_WINDOW],
+    len: usize,
+    /// The span the whole window is scaled by.
+    span: f64,
+    /// `[1, s, s², s³, s⁴]` of each point, `s = u / span`, the powers formed as
+    /// [`solve_normal`] forms them.
+    powers: [[f64; 5]; 2 * HALF_WINDOW],
+}
+
+impl Window {
+    /// `u`: at most `2 HALF_WINDOW` abscissae relative to the point.
+    fn new(u: &[f64]) -> Self {
+        let len = u.len().min(2 * HALF_WINDOW);
+        let mut w = Window {
+            u: [0.0; 2 * HALF_WINDOW],
+            len,
+            span: Self::span(u[..len].iter().copied()),
+            powers: [[0.0; 5]; 2 * HALF_WINDOW],
+        };
+        w.u[..len].copy_from_slice(&u[..len]);
+        for (p, &uj) in w.powers.iter_mut().zip(&u[..len]) {
+            *p = Self::powers(uj / w.span);
+        }
+        w
+    }
+
+    /// The span as [`fit_weights`] takes it: the largest `|u|`, or 1 when that is zero or
+    /// not finite.
+    fn span(u: impl Iterator<Item = f64>) -> f64 {
+        let span = u.fold(0.0f64, |a, v| a.max(v.abs()));
+        if span > 0.0 && span.is_finite() {
+            span
+        } else {
+            1.0
+        }
+    }
+
+    fn powers(s: f64) -> [f64; 5] {
+        let mut out = [1.0; 5];
+        let mut p = 1.0;
+        for o in out.iter_mut() {
+            *o = p;
+            p *= s;
+        }
+        out
+    }
+
+    /// [`Window::weights`] without each point in turn, worked side by side (the fits are
+    /// independent, so the processor overlaps them); the same numbers.
+    fn without_each(&self) -> [Option<Weights>; 2 * HALF_WINDOW] {
+        let len = self.len;
+        let mut out = [None; 2 * HALF_WINDOW];
+        let mut s = [0.0f64; 2 * HALF_WINDOW];
+        for (sj, pw) in s.iter_mut().zip(&self.powers[..len]) {
+            *sj = pw[1];
+        }
+        let s = &s[..len];
+        // Which fits can take the shared scaling and the written-out solve: the span is
+        // unchanged, and the abscissae are sorted with at least three distinct values.
+        let mut quick = [false; 2 * HALF_WINDOW];
+        let sorted = s.windows(2).all(|w| w[0] <= w[1]);
+        for (k, q) in quick.iter_mut().enumerate().take(len) {
+            let span = Self::span(
+                self.u[..len]
+                    .iter()
+                    .enumerate()
+                    .filter(|&(p, _)| p != k)
+                    .map(|(_, &u)| u),
+            );
+            let mut distinct = 1;
+            let mut prev: Option<f64> = None;
+            for (_, &sj) in s.iter().enumerate().filter(|&(p, _)| p != k) {
+                if prev.is_some_and(|p| sj - p > 1e-9) {
+                    distinct += 1;
+                }
+                prev = Some(sj);
+            }
+            *q = len > 1 && sorted && span == self.span && distinct >= 3;
+        }
+        let mut sums = [[0.0f64; 5]; 2 * HALF_WINDOW];
+        for (j, pw) in self.powers[..len].iter().enumerate() {
+            for (k, sum) in sums.iter_mut().enumerate().take(len) {
+                if k != j {
+                    for (acc, &p) in sum.iter_mut().zip(pw) {
+                        *acc += p;
+                    }
+                }
+            }
+        }
+        for k in 0..len {
+            let v = if quick[k] {
+                solve_normal_3(&sums[k], len - 1)
+            } else {
+                None
+            };
+            out[k] = match v {
+                Some(v) => {
+                    let mut w = Weights {
+                        w: [0.0; 2 * HALF_WINDOW + 1],
+                        len: len - 1,
+                        weight_sq: 0.0,
+                    };
+                    for (wj, &sj) in w.w.iter_mut().zip(
+                        s.iter()
+                            .enumerate()
+                            .filter(|&(p, _)| p != k)
+                            .map(|(_, v)| v),
+                    ) {
+                        let x = v[0] + v[1] * sj + v[2] * sj * sj;
+                        *wj = x;
+                        w.weight_sq += x * x;
+                    }
+                    Some(w)
+                }
+                None => self.weights(Some(k)),
+            };
+        }
+        out
+    }
+
+    /// The weights for the window without the point at position `skip` (or whole).
+    fn weights(&self, skip: Option<usize>) -> Option<Weights> {
+        let mut u = [0.0f64; 2 * HALF_WINDOW];
+        let mut powers = [[0.0f64; 5]; 2 * HALF_WINDOW];
+        let mut n = 0;
+        for (p, (&uj, pw)) in self.u[..self.len].iter().zip(&self.powers).enumerate() {
+            if Some(p) != skip {
+                u[n] = uj;
+                powers[n] = *pw;
+                n += 1;
+            }
+        }
+        if n == 0 {
+            return None;
+        }
+        let span = Self::span(u[..n].iter().copied());
+        if span != self.span {
+            // Leaving out the farthest point changes the scaling.
+            return fit_weights(&u[..n], 2);
+        }
+        let mut s = [0.0f64; 2 * HALF_WINDOW];
+        for (sj, pw) in s.iter_mut().zip(&powers[..n]) {
+            *sj = pw[1];
+        }
+        let s = &s[..n];
+        let sorted = s.windows(2).all(|w| w[0] <= w[1]);
+        let distinct = 1 + s.windows(2).filter(|w| w[1] - w[0] > 1e-9).count();
+        if !sorted || distinct < 3 {
+            return fit_weights(&u[..n], 2);
+        }
+        let mut sums = [0.0f64; 5];
+        for pw in &powers[..n] {
+            for (sum, &p) in sums.iter_mut().zip(pw) {
+                *sum += p;
+            }
+        }
+        let Some(v) = solve_normal_3(&sums, n) else {
+            return fit_weights(&u[..n], 2);
+        };
+        let mut out = Weights {
+            w: [0.0; 2 * HALF_WINDOW + 1],
+            len: n,
+            weight_sq: 0.0,
+        };
+        for (wj, &sj) in out.w.iter_mut().zip(s) {
+            let w = v[0] + v[1] * sj + v[2] * sj * sj;
+            *wj = w;
+            out.weight_sq += w * w;
+        }
+        Some(out)
+    }
+}
+
 /// The values' transform `z = T(y)` (module docs, step 2).
 #[derive(Debug, Clone, Copy, PartialEq)]
 enum ValueScale {
@@ -342,12 +606,23 @@ impl ValueScale {
     }
 }
 
-/// A series in one representation: values `z` against abscissae `a` (recorded `x` or point
-/// number); only the points marked in `active` serve as neighbours.
-struct View<'a> {
-    z: &'a [f64],
-    a: &'a [f64],
-    active: &'a [bool],
+/// The abscissa of a view (module docs, step 2).
+#[derive(Debug, Clone, Copy)]
+enum Abscissa<'a> {
+    /// The point number `i`.
+    Number,
+    /// The recorded times or positions, one per point.
+    Recorded(&'a [f64]),
+}
+
+impl Abscissa<'_> {
+    /// The abscissa of point `i` (`i` below the series length).
+    fn at(self, i: usize) -> f64 {
+        match self {
+            Abscissa::Number => i as f64,
+            Abscissa::Recorded(a) => a[i],
+        }
+    }
 }
 
 /// The neighbours of one point in series order: indices and count.
@@ -359,24 +634,15 @@ struct Neighbours {
 }
 
 impl Neighbours {
-    fn iter(&self) -> impl Iterator<Item = usize> + '_ {
-        self.index.iter().take(self.len).copied()
-    }
-}
-
-impl View<'_> {
-    fn is_active(&self, j: usize) -> bool {
-        self.active.get(j).copied().unwrap_or(false)
-    }
-
     /// The `2 HALF_WINDOW` active points nearest to `i` in series order, `i` itself left out:
     /// `HALF_WINDOW` on each side, more from one side where the other runs out (step 1).
-    fn neighbours(&self, i: usize) -> Neighbours {
+    fn of(active: &[bool], i: usize) -> Self {
         let w = 2 * HALF_WINDOW;
+        let is_active = |j: usize| active.get(j).copied().unwrap_or(false);
         let mut left = [0usize; 2 * HALF_WINDOW];
         let mut right = [0usize; 2 * HALF_WINDOW];
         let mut nl = 0;
-        for j in (0..i).rev().filter(|&j| self.is_active(j)) {
+        for j in (0..i).rev().filter(|&j| is_active(j)) {
             if nl == w {
                 break;
             }
@@ -384,7 +650,7 @@ impl View<'_> {
             nl += 1;
         }
         let mut nr = 0;
-        for j in (i + 1..self.z.len()).filter(|&j| self.is_active(j)) {
+        for j in (i + 1..active.len()).filter(|&j| is_active(j)) {
             if nr == w {
                 break;
             }
@@ -405,21 +671,233 @@ impl View<'_> {
         out
     }
 
-    /// Leave-one-out quadratic prediction of point `i` from its neighbours (step 1), without
-    /// the neighbour `skip` if given.
-    fn centred(&self, i: usize, nb: &Neighbours, skip: Option<usize>) -> Option<Prediction> {
-        let ai = *self.a.get(i)?;
+    fn iter(&self) -> impl Iterator<Item = usize> + '_ {
+        self.index.iter().take(self.len).copied()
+    }
+
+    /// The neighbours are `i − HALF_WINDOW ..= i + HALF_WINDOW` without `i`.
+    fn is_interior(&self, i: usize) -> bool {
+        self.len == 2 * HALF_WINDOW
+            && self.index[0] + HALF_WINDOW == i
+            && self.index[2 * HALF_WINDOW - 1] == i + HALF_WINDOW
+    }
+}
+
+/// The weights on the point-number axis for an interior point (neighbours at offsets
+/// `±1 ..= ±HALF_WINDOW`), the whole window and with each neighbour left out: the same for
+/// every interior point, so the fits there are fixed filters computed once.
+struct InteriorWeights {
+    whole: Weights,
+    without: [Weights; 2 * HALF_WINDOW],
+}
+
+impl InteriorWeights {
+    fn new() -> Option<Self> {
+        let mut offsets = [0.0f64; 2 * HALF_WINDOW];
+        for (k, o) in offsets.iter_mut().enumerate() {
+            let k = k as f64 - HALF_WINDOW as f64;
+            *o = if k < 0.0 { k } else { k + 1.0 };
+        }
+        let whole = fit_weights(&offsets, 2)?;
+        let mut without = [whole; 2 * HALF_WINDOW];
+        for (k, w) in without.iter_mut().enumerate() {
+            let mut u = [0.0f64; 2 * HALF_WINDOW - 1];
+            for (dst, (_, &o)) in u
+                .iter_mut()
+                .zip(offsets.iter().enumerate().filter(|&(p, _)| p != k))
+            {
+                *dst = o;
+            }
+            *w = fit_weights(&u, 2)?;
+        }
+        Some(InteriorWeights { whole, without })
+    }
+}
+
+/// One representation of a series: values `z` against one abscissa, with the
+/// standardised deleted residual `c_i` of every point (step 1) and, once asked for, the
+/// resistant residuals that rank suspects (step 7). Both are kept up to date as points are
+/// set aside or put back ([`Engine::set_active`]).
+struct Track<'a> {
+    z: &'a [f64],
+    abscissa: Abscissa<'a>,
+    /// `c_i`; NaN where there is no fit.
+    c: Vec<f64>,
+    /// Resistant residuals (meaningful where `resistant_some`); empty until needed.
+    resistant: Vec<f64>,
+    resistant_some: Vec<bool>,
+}
+
+impl Track<'_> {
+    /// Leave-one-out quadratic prediction of point `i` from its neighbours `nb` (step 1),
+    /// without the neighbour at position `skip` of `nb` if given.
+    fn predict(
+        &self,
+        i: usize,
+        nb: &Neighbours,
+        skip: Option<usize>,
+        interior: Option<&InteriorWeights>,
+    ) -> Option<Prediction> {
+        let z = self.z;
+        if let (Abscissa::Number, Some(table)) = (self.abscissa, interior) {
+            if nb.is_interior(i) {
+                let w = match skip {
+                    None => &table.whole,
+                    Some(k) => table.without.get(k)?,
+                };
+                let values = nb
+                    .iter()
+                    .enumerate()
+                    .filter(|&(p, _)| Some(p) != skip)
+                    .map(|(_, j)| z[j]);
+                return Some(w.apply(values));
+            }
+        }
+        let ai = self.abscissa.at(i);
         let mut u = [0.0f64; 2 * HALF_WINDOW];
-        let mut z = [0.0f64; 2 * HALF_WINDOW];
+        let mut zz = [0.0f64; 2 * HALF_WINDOW];
         let mut k = 0;
-        for j in nb.iter().filter(|&j| Some(j) != skip) {
-            if let (Some(&aj), Some(&zj)) = (self.a.get(j), self.z.get(j)) {
-                u[k] = aj - ai;
-                z[k] = zj;
+        for (p, j) in nb.iter().enumerate() {
+            if Some(p) != skip {
+                u[k] = self.abscissa.at(j) - ai;
+                zz[k] = z[j];
                 k += 1;
             }
         }
-        predict_at_zero(&u[..k], &z[..k], 2)
+        fit_weights(&u[..k], 2).map(|w| w.apply(zz[..k].iter().copied()))
+    }
+
+    /// `c_i = (z_i − ẑ_i) / √(1 + Σ_j w_ij²)` of point `i` from its neighbours `nb` (NaN
+    /// without a fit) and, when `resistant` is set, the resistant residual: the
+    /// standardised residual smallest in size among the fits that leave out, besides the
+    /// point, one of its neighbours. Unlike `c_i` it is not driven by a single gross error
+    /// next to the point; it ranks suspects (step 7).
+    fn residuals(
+        &self,
+        i: usize,
+        nb: &Neighbours,
+        interior: Option<&InteriorWeights>,
+        resistant: bool,
+    ) -> (f64, Option<f64>) {
+        let z = self.z;
+        let zi = z[i];
+        let len = nb.len;
+        let mut zw = [0.0f64; 2 * HALF_WINDOW];
+        for (dst, j) in zw.iter_mut().zip(nb.iter()) {
+            *dst = z[j];
+        }
+        let zw = &zw[..len];
+        // `(z_i − Σ_j w_j z_j) / √(1 + Σ_j w_j²)` over the window without `skip`.
+        let standardised = |w: &Weights, skip: Option<usize>| {
+            let mut value = 0.0;
+            let mut q = 0;
+            for (p, &zj) in zw.iter().enumerate() {
+                if Some(p) != skip {
+                    value += w.w[q] * zj;
+                    q += 1;
+                }
+            }
+            (zi - value) / (1.0 + w.weight_sq).sqrt()
+        };
+        // The first of equal sizes is kept, as `min_by` keeps it.
+        let smaller = |best: Option<f64>, r: f64| {
+            if best.is_none_or(|b| r.abs().total_cmp(&b.abs()) == std::cmp::Ordering::Less) {
+                Some(r)
+            } else {
+                best
+            }
+        };
+        if let (Abscissa::Number, Some(table)) = (self.abscissa, interior) {
+            if nb.is_interior(i) {
+                let c = standardised(&table.whole, None);
+                let r = resistant.then(|| {
+                    table
+                        .without
+                        .iter()
+                        .enumerate()
+                        .fold(None, |best, (k, w)| smaller(best, standardised(w, Some(k))))
+                });
+                return (c, r.flatten());
+            }
+        }
+        let ai = self.abscissa.at(i);
+        let mut u = [0.0f64; 2 * HALF_WINDOW];
+        for (dst, j) in u.iter_mut().zip(nb.iter()) {
+            *dst = self.abscissa.at(j) - ai;
+        }
+        let window = Window::new(&u[..len]);
+        let c = window
+            .weights(None)
+            .map_or(f64::NAN, |w| standardised(&w, None));
+        let r = resistant.then(|| {
+            let parts = window.without_each();
+            parts[..len]
+                .iter()
+                .enumerate()
+                .fold(None, |best, (k, w)| match w {
+                    Some(w) => smaller(best, standardised(w, Some(k))),
+                    None => best,
+                })
+        });
+        (c, r.flatten())
+    }
+
+    /// Recompute point `i` from its neighbours `nb`.
+    fn refresh(&mut self, i: usize, nb: &Neighbours, interior: Option<&InteriorWeights>) {
+        let with_resistant = !self.resistant.is_empty();
+        let (c, r) = self.residuals(i, nb, interior, with_resistant);
+        self.c[i] = c;
+        if with_resistant {
+            self.resistant[i] = r.unwrap_or(f64::NAN);
+            self.resistant_some[i] = r.is_some();
+        }
+    }
+
+    /// Compute `c` (and, with `resistant`, the resistant residuals) of every point, in
+    /// parallel blocks of points.
+    fn compute_all(
+        &mut self,
+        active: &[bool],
+        interior: Option<&InteriorWeights>,
+        resistant: bool,
+    ) {
+        use rayon::prelude::*;
+        const BLOCK: usize = 4096;
+        let n = active.len();
+        let mut c = std::mem::take(&mut self.c);
+        let mut r = std::mem::take(&mut self.resistant);
+        let mut some = std::mem::take(&mut self.resistant_some);
+        c.resize(n, f64::NAN);
+        if resistant {
+            r.resize(n, f64::NAN);
+            some.resize(n, false);
+        }
+        let this = &*self;
+        let block = |(b, c): (usize, &mut [f64]), mut r: Option<(&mut [f64], &mut [bool])>| {
+            for (o, cv) in c.iter_mut().enumerate() {
+                let i = b * BLOCK + o;
+                let nb = Neighbours::of(active, i);
+                let (ci, ri) = this.residuals(i, &nb, interior, r.is_some());
+                *cv = ci;
+                if let Some((r, some)) = r.as_mut() {
+                    r[o] = ri.unwrap_or(f64::NAN);
+                    some[o] = ri.is_some();
+                }
+            }
+        };
+        if resistant {
+            c.par_chunks_mut(BLOCK)
+                .enumerate()
+                .zip(r.par_chunks_mut(BLOCK).zip(some.par_chunks_mut(BLOCK)))
+                .for_each(|(cb, rb)| block(cb, Some(rb)));
+        } else {
+            c.par_chunks_mut(BLOCK)
+                .enumerate()
+                .for_each(|cb| block(cb, None));
+        }
+        self.c = c;
+        self.resistant = r;
+        self.resistant_some = some;
     }
 
     /// The deviation from the reference that an unresolved bend or step can explain (step
@@ -442,9 +920,7 @@ impl View<'_> {
         let mut count = 0;
         let (mut at, mut sum, mut members) = (f64::NAN, 0.0, 0.0);
         for j in nb.iter() {
-            let (Some(&aj), Some(&zj)) = (self.a.get(j), self.z.get(j)) else {
-                continue;
-            };
+            let (aj, zj) = (self.abscissa.at(j), self.z[j]);
             if aj != at && members > 0.0 {
                 groups[count] = sum / members;
                 count += 1;
@@ -494,29 +970,109 @@ fn resolution(y: &[f64]) -> f64 {
     0.0
 }
 
-/// Robust scale of the residuals of the active points in the smaller and the larger half of
-/// the values (by `y`), each with its count, and which half each point is in (`true` =
-/// larger half).
-fn half_scales(c: &[f64], y: &[f64], active: &[bool]) -> ([(f64, usize); 2], Vec<bool>) {
-    let mut order: Vec<usize> = (0..c.len())
-        .filter(|&i| c[i].is_finite() && active.get(i).copied().unwrap_or(false))
-        .collect();
-    order.sort_by(|&p, &q| y[p].total_cmp(&y[q]));
-    let half = order.len() / 2;
-    let mut upper = vec![false; c.len()];
-    let border = order.get(half).map(|&i| y[i]);
-    for (i, u) in upper.iter_mut().enumerate() {
-        *u = border.is_some_and(|b| y[i] >= b);
+/// Values drawn (evenly spaced in series order) to bracket an order statistic.
+const BRACKET_SAMPLE: usize = 8192;
+
+/// Sets smaller than this are scaled by [`robust_scale`] directly.
+const BRACKET_MIN: usize = 4 * BRACKET_SAMPLE;
+
+/// The order statistic of rank `k` (from 0) of the values `f(v_j)`, and with `next` the one
+/// of rank `k + 1` too (else `k` again); `k` (and `k + 1`) below `v.len()`, values finite.
+///
+/// The values are the ones a full sort would give, found with one pass in the usual case: a
+/// sample brackets the rank, the pass counts the values below the bracket and keeps those
+/// inside it, and a selection among those finds the rank. A bracket that misses (an
+/// unlucky sample) is widened, and the last resort is a selection among all values.
+fn order_statistics(
+    v: &[f64],
+    f: impl Fn(f64) -> f64,
+    k: usize,
+    next: bool,
+    buf: &mut Vec<f64>,
+) -> (f64, f64) {
+    let n = v.len();
+    let last = k + usize::from(next);
+    let pick = |buf: &mut Vec<f64>, r: usize| {
+        let (_, a, rest) = buf.select_nth_unstable_by(r, f64::total_cmp);
+        let a = *a;
+        let b = if next {
+            rest.iter().copied().fold(f64::INFINITY, f64::min)
+        } else {
+            a
+        };
+        (a, b)
+    };
+    if n >= BRACKET_MIN {
+        let stride = n / BRACKET_SAMPLE;
+        let mut sample: Vec<f64> = (0..BRACKET_SAMPLE).map(|j| f(v[j * stride])).collect();
+        sample.sort_unstable_by(f64::total_cmp);
+        let size = BRACKET_SAMPLE as f64;
+        // The sample quantile's standard error is below 0.0056 in rank fraction: the first
+        // margin is 4.5 of them.
+        for margin in [0.025, 0.1, 0.3] {
+            let lo_at = (k as f64 / n as f64 - margin) * size;
+            let hi_at = ((last + 1) as f64 / n as f64 + margin) * size;
+            let lo = if lo_at >= 0.0 {
+                sample[(lo_at.floor() as usize).min(BRACKET_SAMPLE - 1)]
+            } else {
+                f64::NEG_INFINITY
+            };
+            let hi = if hi_at < size - 1.0 {
+                sample[hi_at.ceil() as usize]
+            } else {
+                f64::INFINITY
+            };
+            buf.clear();
+            let mut below = 0usize;
+            for &x in v {
+                let fx = f(x);
+                below += usize::from(fx < lo);
+                if fx >= lo && fx <= hi {
+                    buf.push(fx);
+                }
+            }
+            if below <= k && below + buf.len() > last {
+                return pick(buf, k - below);
+            }
+        }
     }
-    let lower_c: Vec<f64> = order[..half].iter().map(|&i| c[i]).collect();
-    let upper_c: Vec<f64> = order[half..].iter().map(|&i| c[i]).collect();
-    (
-        [
-            (robust_scale(&lower_c).0, lower_c.len()),
-            (robust_scale(&upper_c).0, upper_c.len()),
-        ],
-        upper,
-    )
+    buf.clear();
+    buf.extend(v.iter().map(|&x| f(x)));
+    pick(buf, k)
+}
+
+/// [`robust_scale`] of the values `v`, the same numbers, in time linear in their count with
+/// a small constant ([`order_statistics`]) and without reordering `v`. `ordered` gives the
+/// values in the order [`robust_scale`] would have seen them: the mean absolute deviation
+/// (when the MAD is zero) is summed in an order that depends on it, so that case, small sets
+/// and values near the overflow limit are handed to [`robust_scale`] itself.
+fn robust_scale_fast(
+    v: &[f64],
+    buf: &mut Vec<f64>,
+    ordered: impl FnOnce() -> Vec<f64>,
+) -> (f64, f64) {
+    let n = v.len();
+    if n < BRACKET_MIN || !v.iter().all(|x| x.abs() <= 1e300) {
+        return robust_scale(&ordered());
+    }
+    let mid = n / 2;
+    let med = if n % 2 == 1 {
+        order_statistics(v, |x| x, mid, false, buf).0
+    } else {
+        let (lower, m) = order_statistics(v, |x| x, mid - 1, true, buf);
+        0.5 * (lower + m)
+    };
+    let mad = if n % 2 == 1 {
+        order_statistics(v, |x| (x - med).abs(), mid, false, buf).0
+    } else {
+        let (lower, m) = order_statistics(v, |x| (x - med).abs(), mid - 1, true, buf);
+        0.5 * (lower + m)
+    };
+    let s = MAD_TO_SIGMA * mad;
+    if s <= 0.0 {
+        return robust_scale(&ordered());
+    }
+    (s, med)
 }
 
 /// One flagged point: its index, its distance from the reference in robust standard
@@ -531,79 +1087,21 @@ pub struct OutlierFlag {
     pub limit: f64,
 }
 
-/// One representation of a series judged on its own: values `z` against one abscissa, with
-/// the standardised residuals and the noise scales of module docs steps 1 and 3, from the
-/// active points.
-struct Judge<'a> {
-    view: View<'a>,
-    /// Neighbours of every point.
-    neighbours: Vec<Neighbours>,
-    /// Standardised deleted residuals `c_i` (NaN where no fit).
-    c: Vec<f64>,
-    /// Reference values `ẑ_i` (NaN where no fit).
-    reference: Vec<f64>,
-    /// `Σ_j w_ij²` of each reference.
-    weight_sq: Vec<f64>,
-    /// Largest `|z|` of the series.
-    magnitude: f64,
+/// The noise scales of one track (steps 3 and 4) over its active points.
+#[derive(Debug, Clone, Copy)]
+struct Bars {
     /// Series scale σ̂, its count m and the median of `c`.
     sigma: f64,
     count: usize,
     centre: f64,
-    /// Scale and count of the smaller and the larger half of the values; which half each
-    /// point is in.
+    /// Scale and count of the smaller and the larger half of the values.
     halves: [(f64, usize); 2],
-    upper: Vec<bool>,
+    /// The smallest value `y` of the larger half; a point is in the larger half when its
+    /// value is at least this.
+    border: Option<f64>,
 }
 
-impl<'a> Judge<'a> {
-    fn new(z: &'a [f64], a: &'a [f64], active: &'a [bool], y: &[f64]) -> Self {
-        let view = View { z, a, active };
-        let n = z.len();
-        let neighbours: Vec<Neighbours> = (0..n).map(|i| view.neighbours(i)).collect();
-        let mut c = vec![f64::NAN; n];
-        let mut reference = vec![f64::NAN; n];
-        let mut weight_sq = vec![f64::NAN; n];
-        for (i, nb) in neighbours.iter().enumerate() {
-            if let Some(p) = view.centred(i, nb, None) {
-                c[i] = (z[i] - p.value) / (1.0 + p.weight_sq).sqrt();
-                reference[i] = p.value;
-                weight_sq[i] = p.weight_sq;
-            }
-        }
-        let finite: Vec<f64> = (0..n)
-            .filter(|&i| c[i].is_finite() && view.is_active(i))
-            .map(|i| c[i])
-            .collect();
-        let (sigma, centre) = robust_scale(&finite);
-        let (halves, upper) = half_scales(&c, y, active);
-        Judge {
-            view,
-            neighbours,
-            c,
-            reference,
-            weight_sq,
-            magnitude: z.iter().fold(0.0f64, |m, v| m.max(v.abs())),
-            sigma,
-            count: finite.len(),
-            centre,
-            halves,
-            upper,
-        }
-    }
-
-    /// The standardised residual of point `i` that is smallest in size among the fits that
-    /// leave out, besides the point, one of its neighbours: unlike `c_i` it is not driven by
-    /// a single gross error next to the point. For ranking suspects only.
-    fn resistant_residual(&self, i: usize) -> Option<f64> {
-        let nb = self.neighbours.get(i)?;
-        let zi = *self.view.z.get(i)?;
-        nb.iter()
-            .filter_map(|k| self.view.centred(i, nb, Some(k)))
-            .map(|p| (zi - p.value) / (1.0 + p.weight_sq).sqrt())
-            .min_by(|a, b| a.abs().total_cmp(&b.abs()))
-    }
-
+impl Bars {
     /// How uneven the noise is between the smaller and the larger half of the values (≥ 1).
     fn unevenness(&self) -> f64 {
         let [(lo, _), (hi, _)] = self.halves;
@@ -616,161 +1114,356 @@ impl<'a> Judge<'a> {
         }
     }
 
-    /// Distance of point `i` from its reference in robust standard deviations, and the bar
-    /// (steps 3 and 4): the larger of the series bar and the bar of the point's own half.
-    fn distance(&self, i: usize) -> Option<(f64, f64)> {
-        let ci = *self.c.get(i)?;
-        if !(ci.is_finite() && self.sigma > 0.0) {
+    /// Distance of a point with residual `c` and value `y` from its reference in robust
+    /// standard deviations, and the bar (steps 3 and 4): the larger of the series bar and
+    /// the bar of the point's own half.
+    fn distance(&self, c: f64, y: f64) -> Option<(f64, f64)> {
+        if !(c.is_finite() && self.sigma > 0.0) {
             return None;
         }
-        let (s_half, m_half) = self.halves[usize::from(*self.upper.get(i)?)];
+        let upper = self.border.is_some_and(|b| y >= b);
+        let (s_half, m_half) = self.halves[usize::from(upper)];
         let mut used = (self.sigma, outlier_threshold(self.count));
         let k_half = outlier_threshold(m_half);
         if m_half >= MIN_HALF && s_half * k_half > used.0 * used.1 {
             used = (s_half, k_half);
         }
         let (s_used, k_used) = used;
-        Some(((ci - self.centre).abs() / s_used, k_used))
-    }
-
-    /// Is point `i` far from this reference (steps 3 to 6)? Its distance and bar, or `None`
-    /// when it passes. `y` is in the file's scale, `invert` maps a reference value back to
-    /// it, `q` is the reading resolution.
-    fn far(&self, i: usize, y: &[f64], invert: impl Fn(f64) -> f64, q: f64) -> Option<(f64, f64)> {
-        let (sigmas, bar) = self.distance(i)?;
-        if sigmas <= bar {
-            return None;
-        }
-        let zi = *self.view.z.get(i)?;
-        let reference = *self.reference.get(i)?;
-        // Rounding in the fit itself (a constant series gives residuals of 1e-14).
-        if (zi - reference).abs() <= ROUNDING * self.magnitude {
-            return None;
-        }
-        if (zi - reference).abs()
-            <= self
-                .view
-                .allowance(self.neighbours.get(i)?, *self.weight_sq.get(i)?)
-        {
-            return None;
-        }
-        if (y.get(i)? - invert(reference)).abs() <= RESOLUTION_STEPS * q {
-            return None;
-        }
-        Some((sigmas, bar))
+        Some(((c - self.centre).abs() / s_used, k_used))
     }
 }
 
-/// The series in the value scale chosen for the active points (step 2), with one judge per
-/// abscissa.
-struct Judged<'a> {
-    scale: ValueScale,
-    judges: Vec<Judge<'a>>,
+/// The series in every value scale and against every abscissa (step 2), with the points
+/// set aside so far (step 7).
+///
+/// Setting one point aside or putting it back changes the fits of only the points within
+/// a window's reach of it, so those are refitted and the rest kept; the noise scales are
+/// medians over all points, found in linear time ([`robust_scale_fast`]). Every number is
+/// the one a fresh computation of all fits would give.
+struct Engine<'a> {
+    /// The values in the file's scale.
+    y: &'a [f64],
+    active: Vec<bool>,
+    /// Points not active.
+    set_aside: usize,
+    interior: Option<InteriorWeights>,
+    scales: Vec<ValueScale>,
+    /// One track per value scale and abscissa: `tracks[scale][abscissa]`.
+    tracks: Vec<Vec<Track<'a>>>,
+    /// Largest `|z|` of each value scale.
+    magnitude: Vec<f64>,
+    /// Point indices in order of value (ties in series order), and each point's position
+    /// in that order.
+    by_value: Vec<u32>,
+    rank: Vec<u32>,
+    /// Scratch space for the noise scales.
+    scratch: [Vec<f64>; 3],
 }
 
-impl Judged<'_> {
-    /// Point `i` judged on every abscissa: `Some` (smallest distance, its bar) only when it is
-    /// far on all of them.
-    fn far(&self, i: usize, y: &[f64], q: f64) -> Option<(f64, f64)> {
+impl<'a> Engine<'a> {
+    /// All points active; `transformed` holds the values in each scale, `abscissae` at
+    /// least one abscissa. `None` when the series is too long to index with `u32`.
+    fn new(
+        y: &'a [f64],
+        transformed: &'a [(ValueScale, Vec<f64>)],
+        abscissae: &[Abscissa<'a>],
+    ) -> Option<Self> {
+        let n = y.len();
+        let n32 = u32::try_from(n).ok()?;
+        let active = vec![true; n];
+        let interior = InteriorWeights::new();
+        let mut tracks: Vec<Vec<Track<'a>>> = transformed
+            .iter()
+            .map(|(_, z)| {
+                abscissae
+                    .iter()
+                    .map(|&abscissa| Track {
+                        z,
+                        abscissa,
+                        c: vec![f64::NAN; n],
+                        resistant: Vec::new(),
+                        resistant_some: Vec::new(),
+                    })
+                    .collect()
+            })
+            .collect();
+        for t in tracks.iter_mut().flatten() {
+            t.compute_all(&active, interior.as_ref(), false);
+        }
+        let mut by_value: Vec<u32> = (0..n32).collect();
+        by_value.sort_by(|&p, &q| y[p as usize].total_cmp(&y[q as usize]));
+        let mut rank = vec![0u32; n];
+        for (r, &i) in (0..n32).zip(&by_value) {
+            rank[i as usize] = r;
+        }
+        Some(Engine {
+            y,
+            active,
+            set_aside: 0,
+            interior,
+            scales: transformed.iter().map(|(s, _)| *s).collect(),
+            magnitude: transformed
+                .iter()
+                .map(|(_, z)| z.iter().fold(0.0f64, |m, v| m.max(v.abs())))
+                .collect(),
+            tracks,
+            by_value,
+            rank,
+            scratch: [Vec::new(), Vec::new(), Vec::new()],
+        })
+    }
+
+    /// Set point `s` aside (`on = false`) or put it back, and refit the points whose
+    /// neighbours change: those within `2 HALF_WINDOW` active points of it.
+    fn set_active(&mut self, s: usize, on: bool) {
+        let n = self.active.len();
+        if s >= n || self.active[s] == on {
+            return;
+        }
+        self.active[s] = on;
+        if on {
+            self.set_aside -= 1;
+        } else {
+            self.set_aside += 1;
+        }
+        // A neighbour is at most 2 HALF_WINDOW points away plus the points set aside in
+        // between, before or after this change.
+        let reach = 2 * HALF_WINDOW + self.set_aside + 2;
+        let interior = self.interior.as_ref();
+        for i in s.saturating_sub(reach)..(s + reach + 1).min(n) {
+            let nb = Neighbours::of(&self.active, i);
+            for t in self.tracks.iter_mut().flatten() {
+                t.refresh(i, &nb, interior);
+            }
+        }
+    }
+
+    /// Make sure the resistant residuals of value scale `k` are computed.
+    fn ensure_resistant(&mut self, k: usize) {
+        let n = self.active.len();
+        let interior = self.interior.as_ref();
+        let Some(tracks) = self.tracks.get_mut(k) else {
+            return;
+        };
+        for t in tracks.iter_mut().filter(|t| t.resistant.len() != n) {
+            t.compute_all(&self.active, interior, true);
+        }
+    }
+
+    /// The noise scales of track `(k, a)` over the active points (steps 3 and 4).
+    fn bars(&mut self, k: usize, a: usize) -> Bars {
+        let Engine {
+            y,
+            active,
+            tracks,
+            by_value,
+            rank,
+            scratch,
+            ..
+        } = self;
+        let c = &tracks[k][a].c;
+        let included = |i: usize| active[i] && c[i].is_finite();
+        let [all, lower, upper] = scratch;
+        // Series scale over the active residuals, in series order.
+        all.clear();
+        all.extend((0..c.len()).filter(|&i| included(i)).map(|i| c[i]));
+        let mut buf = Vec::new();
+        let (sigma, centre) = robust_scale_fast(all, &mut buf, || all.clone());
+        let count = all.len();
+        // The halves: the first `count / 2` included points in order of value are the
+        // smaller half. Its border is found from the positions of the excluded points.
+        let mut excluded: Vec<u32> = (0..c.len())
+            .filter(|&i| !included(i))
+            .map(|i| rank[i])
+            .collect();
+        excluded.sort_unstable();
+        let border_at = (count > 0).then(|| {
+            let mut p = count / 2;
+            for &r in &excluded {
+                if r as usize <= p {
+                    p += 1;
+                } else {
+                    break;
+                }
+            }
+            p
+        });
+        let border = border_at
+            .and_then(|p| by_value.get(p))
+            .map(|&i| y[i as usize]);
+        let cut = border_at.unwrap_or(c.len());
+        lower.clear();
+        upper.clear();
+        for i in (0..c.len()).filter(|&i| included(i)) {
+            if (rank[i] as usize) < cut {
+                lower.push(c[i]);
+            } else {
+                upper.push(c[i]);
+            }
+        }
+        // In order of value, as the plain computation takes them.
+        let ordered = |smaller: bool| {
+            by_value
+                .iter()
+                .map(|&i| i as usize)
+                .filter(|&i| included(i) && ((rank[i] as usize) < cut) == smaller)
+                .map(|i| c[i])
+                .collect::<Vec<f64>>()
+        };
+        let s_lower = robust_scale_fast(lower, &mut buf, || ordered(true)).0;
+        let s_upper = robust_scale_fast(upper, &mut buf, || ordered(false)).0;
+        Bars {
+            sigma,
+            count,
+            centre,
+            halves: [(s_lower, lower.len()), (s_upper, upper.len())],
+            border,
+        }
+    }
+
+    /// Choose the value scale for the active points (step 2): the one in which the halves
+    /// of the values are most alike in noise, judged on the abscissa with the smallest
+    /// noise scale. With its bars per abscissa when they were computed.
+    fn choose_scale(&mut self) -> (usize, Option<Vec<Bars>>) {
+        if self.scales.len() < 2 {
+            return (0, None);
+        }
+        let mut best: Option<(f64, usize, Vec<Bars>)> = None;
+        for k in 0..self.scales.len() {
+            let bars: Vec<Bars> = (0..self.tracks[k].len()).map(|a| self.bars(k, a)).collect();
+            let closest = bars.iter().min_by(|p, q| p.sigma.total_cmp(&q.sigma));
+            if let Some(u) = closest.map(Bars::unevenness) {
+                if best.as_ref().is_none_or(|(b, _, _)| u < *b) {
+                    best = Some((u, k, bars));
+                }
+            }
+        }
+        match best {
+            Some((_, k, bars)) => (k, Some(bars)),
+            None => (0, None),
+        }
+    }
+
+    /// The bars of every abscissa of the value scale chosen now.
+    fn judge(&mut self) -> (usize, Vec<Bars>) {
+        let (k, bars) = self.choose_scale();
+        let bars = match bars {
+            Some(b) => b,
+            None => (0..self.tracks[k].len()).map(|a| self.bars(k, a)).collect(),
+        };
+        (k, bars)
+    }
+
+    /// The next suspect (step 7): the active point farthest from its neighbours, ranked by
+    /// the resistant residuals in series-wide robust standard deviations (the smaller over
+    /// the abscissae), if beyond [`SUSPECT_SIGMAS`].
+    fn suspect(&mut self, k: usize) -> Option<usize> {
+        self.ensure_resistant(k);
+        let Engine {
+            active,
+            tracks,
+            scratch,
+            ..
+        } = self;
+        let n = active.len();
+        let tracks = tracks.get(k)?;
+        let [values, _, _] = scratch;
+        let mut buf = Vec::new();
+        let scales: Vec<(f64, f64)> = tracks
+            .iter()
+            .map(|t| {
+                values.clear();
+                values.extend(
+                    (0..n)
+                        .filter(|&i| active[i] && t.resistant_some[i])
+                        .map(|i| t.resistant[i]),
+                );
+                robust_scale_fast(values, &mut buf, || values.clone())
+            })
+            .collect();
+        let mut best: Option<(usize, f64)> = None;
+        for i in (0..n).filter(|&i| active[i]) {
+            let mut ratio = f64::INFINITY;
+            for (t, &(scale, centre)) in tracks.iter().zip(&scales) {
+                let v = if t.resistant_some[i] && scale > 0.0 {
+                    (t.resistant[i] - centre).abs() / scale
+                } else {
+                    0.0
+                };
+                ratio = ratio.min(v);
+            }
+            // The last of equal ratios wins.
+            if ratio.is_finite()
+                && ratio > SUSPECT_SIGMAS
+                && best.is_none_or(|(_, b)| b.total_cmp(&ratio) != std::cmp::Ordering::Greater)
+            {
+                best = Some((i, ratio));
+            }
+        }
+        best.map(|(i, _)| i)
+    }
+
+    /// Point `i` judged on every abscissa of value scale `k` (steps 3 to 6): `Some`
+    /// (smallest distance, its bar) only when it is far on all of them. `q` is the reading
+    /// resolution.
+    fn far(&self, k: usize, bars: &[Bars], i: usize, q: f64) -> Option<(f64, f64)> {
+        let scale = *self.scales.get(k)?;
+        let magnitude = *self.magnitude.get(k)?;
+        let yi = *self.y.get(i)?;
         let mut worst: Option<(f64, f64)> = None;
-        for j in &self.judges {
-            let (sig, lim) = j.far(i, y, |r| self.scale.invert(r), q)?;
-            if worst.is_none_or(|(w, _)| sig < w) {
-                worst = Some((sig, lim));
+        let mut nb: Option<Neighbours> = None;
+        for (t, b) in self.tracks.get(k)?.iter().zip(bars) {
+            let (sigmas, bar) = b.distance(*t.c.get(i)?, yi)?;
+            if sigmas <= bar {
+                return None;
+            }
+            let nb = nb.get_or_insert_with(|| Neighbours::of(&self.active, i));
+            let p = t.predict(i, nb, None, self.interior.as_ref())?;
+            let deviation = (t.z[i] - p.value).abs();
+            // Rounding in the fit itself (a constant series gives residuals of 1e-14).
+            if deviation <= ROUNDING * magnitude {
+                return None;
+            }
+            if deviation <= t.allowance(nb, p.weight_sq) {
+                return None;
+            }
+            if (yi - scale.invert(p.value)).abs() <= RESOLUTION_STEPS * q {
+                return None;
+            }
+            if worst.is_none_or(|(w, _)| sigmas < w) {
+                worst = Some((sigmas, bar));
             }
         }
         worst
     }
-
-    /// The next suspect: the active point farthest from its neighbours, ranked by the
-    /// resistant residuals in series-wide robust standard deviations (the smaller over the
-    /// abscissae).
-    fn suspect(&self, active: &[bool]) -> Option<usize> {
-        let mut ratio = vec![f64::INFINITY; active.len()];
-        for j in &self.judges {
-            let r: Vec<Option<f64>> = (0..active.len())
-                .map(|i| {
-                    if active[i] {
-                        j.resistant_residual(i)
-                    } else {
-                        None
-                    }
-                })
-                .collect();
-            let finite: Vec<f64> = r.iter().flatten().copied().collect();
-            let (scale, centre) = robust_scale(&finite);
-            for (ri, q) in ratio.iter_mut().zip(&r) {
-                let v = match q {
-                    Some(v) if scale > 0.0 => (v - centre).abs() / scale,
-                    _ => 0.0,
-                };
-                *ri = ri.min(v);
-            }
-        }
-        (0..active.len())
-            .filter(|&i| active[i] && ratio[i].is_finite() && ratio[i] > SUSPECT_SIGMAS)
-            .max_by(|&p, &q| ratio[p].total_cmp(&ratio[q]))
-    }
-}
-
-/// Choose the value scale (step 2) for the active points and build the judges.
-fn judge<'a>(
-    transformed: &'a [(ValueScale, Vec<f64>)],
-    abscissae: &'a [&'a [f64]],
-    active: &'a [bool],
-    y: &[f64],
-) -> Option<Judged<'a>> {
-    let mut best: Option<(f64, usize)> = None;
-    if transformed.len() > 1 {
-        for (k, (_, z)) in transformed.iter().enumerate() {
-            let closest = abscissae
-                .iter()
-                .map(|a| Judge::new(z, a, active, y))
-                .min_by(|p, q| p.sigma.total_cmp(&q.sigma));
-            if let Some(j) = closest {
-                let u = j.unevenness();
-                if best.is_none_or(|(b, _)| u < b) {
-                    best = Some((u, k));
-                }
-            }
-        }
-    }
-    let (scale, z) = transformed.get(best.map_or(0, |(_, k)| k))?;
-    Some(Judged {
-        scale: *scale,
-        judges: abscissae
-            .iter()
-            .map(|a| Judge::new(z, a, active, y))
-            .collect(),
-    })
 }
 
 /// The points of `y` that the rule in the module docs reports, in series order. `x` holds the
 /// times or positions (non-decreasing; pass an empty slice to use the point number only).
+/// Series of more than `u32::MAX` points are not judged.
 pub fn find_outliers(x: &[f64], y: &[f64]) -> Vec<OutlierFlag> {
     let n = y.len();
     if n < MIN_POINTS_FOR_OUTLIERS || y.iter().any(|v| !v.is_finite()) {
         return Vec::new();
     }
-    let index: Vec<f64> = (0..n).map(|i| i as f64).collect();
     let usable_x = x.len() == n
         && x.iter().all(|v| v.is_finite())
         && x.windows(2).all(|w| w[1] >= w[0])
         && x[n - 1] > x[0];
-    let abscissae: Vec<&[f64]> = if !usable_x {
-        vec![&index]
+    let abscissae: Vec<Abscissa> = if !usable_x {
+        vec![Abscissa::Number]
     } else if x.windows(2).any(|w| w[1] == w[0]) {
         // Repeated readings at one time or depth: the point number means nothing.
-        vec![x]
+        vec![Abscissa::Recorded(x)]
     } else {
         let mean_step = (x[n - 1] - x[0]) / (n - 1) as f64;
         let uniform = x
             .windows(2)
             .all(|w| ((w[1] - w[0]) - mean_step).abs() <= 1e-9 * mean_step);
         if uniform {
-            vec![&index]
+            vec![Abscissa::Number]
         } else {
-            vec![&index, x]
+            vec![Abscissa::Number, Abscissa::Recorded(x)]
         }
     };
     let mut scales = vec![ValueScale::Linear];
@@ -786,41 +1479,44 @@ pub fn find_outliers(x: &[f64], y: &[f64]) -> Vec<OutlierFlag> {
         .map(|&s| (s, y.iter().map(|&v| s.apply(v)).collect()))
         .collect();
     let q = resolution(y);
+    let Some(mut engine) = Engine::new(y, &transformed, &abscissae) else {
+        return Vec::new();
+    };
 
     // Suspects are set aside one at a time, so that a gross error does not inflate the
     // residuals of its neighbours and the noise scale (step 7).
     let max_suspects = (n / 5).clamp(2, MAX_OUTLIER_WARNINGS);
-    let mut active = vec![true; n];
     let mut suspects = Vec::new();
     while suspects.len() < max_suspects {
-        let next = judge(&transformed, &abscissae, &active, y).and_then(|j| j.suspect(&active));
-        let Some(i) = next else { break };
-        active[i] = false;
+        let (k, _) = engine.choose_scale();
+        let Some(i) = engine.suspect(k) else { break };
+        engine.set_active(i, false);
         suspects.push(i);
     }
     // Suspects that are far from the other points with all suspects set aside are
     // confirmed; the rest go back. Every point is then judged with only the confirmed ones
     // set aside.
-    let mut mask = vec![true; n];
-    if let Some(j) = judge(&transformed, &abscissae, &active, y) {
-        for &i in &suspects {
-            mask[i] = j.far(i, y, q).is_none();
-        }
+    let (k, bars) = engine.judge();
+    let back: Vec<usize> = suspects
+        .iter()
+        .copied()
+        .filter(|&i| engine.far(k, &bars, i, q).is_none())
+        .collect();
+    for i in back {
+        engine.set_active(i, true);
     }
-    let mut reported: Vec<OutlierFlag> = Vec::new();
-    if let Some(j) = judge(&transformed, &abscissae, &mask, y) {
-        for i in 0..n {
-            if let Some((sigmas, limit)) = j.far(i, y, q) {
-                reported.push(OutlierFlag {
+    let (k, bars) = engine.judge();
+    (0..n)
+        .filter_map(|i| {
+            engine
+                .far(k, &bars, i, q)
+                .map(|(sigmas, limit)| OutlierFlag {
                     index: i,
                     sigmas,
                     limit,
-                });
-            }
-        }
-    }
-    reported.sort_by_key(|f| f.index);
-    reported
+                })
+        })
+        .collect()
 }
 
 /// Indices of the points of `y` the outlier rule reports (module docs), in series order;
@@ -871,6 +1567,9 @@ pub(crate) fn outliers(
 }
 
 #[cfg(test)]
+mod reference;
+
+#[cfg(test)]
 mod tests {
     use super::*;
     use crate::analytic::special::erfc;
@@ -900,6 +1599,178 @@ mod tests {
         // Too short to judge.
         assert!(outlier_indices(&[], &[1.0, 2.0, 100.0, 3.0]).is_empty());
         assert!(outlier_indices(&[], &[1.0, 2.0, 3.0, 100.0, 5.0, 6.0]).is_empty());
+    }
+
+    /// Plant `count` gross errors (the value ×10 or a lost sign) at random points.
+    fn plant(y: &mut [f64], count: usize, rng: &mut StdRng) {
+        use rand::Rng;
+        for e in 0..count {
+            let i = rng.random_range(0..y.len());
+            y[i] = if e % 2 == 0 { 10.0 * y[i] } else { -y[i] };
+        }
+    }
+
+    /// The fast computation reports exactly the points, distances and bars of the plain one
+    /// (the rule as first written, kept in `reference`), on seeded series of every kind in
+    /// [`clean_curves`], with and without planted errors and with and without the recorded
+    /// abscissa.
+    #[test]
+    fn fast_path_matches_the_plain_computation_on_short_series() {
+        let mut rng = StdRng::seed_from_u64(4242);
+        let (mut series, mut flags) = (0, 0);
+        for curve in clean_curves() {
+            for rep in 0..16 {
+                let mut file = curve.draw(&mut rng);
+                plant(&mut file, rep % 4, &mut rng);
+                let y = curve.si(&file);
+                for x in [&curve.x[..], &[]] {
+                    let fast = find_outliers(x, &y);
+                    let plain = reference::find_outliers(x, &y);
+                    assert_eq!(fast, plain, "{}, replicate {rep}", curve.name);
+                    series += 1;
+                    flags += fast.len();
+                }
+            }
+        }
+        eprintln!("{series} series compared, {flags} points flagged by both");
+        assert!(flags > 100, "too few flags to compare: {flags}");
+    }
+
+    /// The same on long series, where the noise scales are found by bracketed selection
+    /// (more than [`BRACKET_MIN`] points): jittered times (both abscissae), values over
+    /// three decades (three value scales), a flat trace read to 0.1 (a zero MAD), and
+    /// logarithmic times.
+    #[test]
+    fn fast_path_matches_the_plain_computation_on_long_series() {
+        use rand::Rng;
+        let n = BRACKET_MIN + 1500;
+        let mut rng = StdRng::seed_from_u64(99);
+        let noise = Normal::new(0.0, 1.0).map_err(|e| e.to_string());
+        let Ok(noise) = noise else {
+            panic!("normal distribution");
+        };
+        let mut cases: Vec<(&str, Vec<f64>, Vec<f64>)> = Vec::new();
+        let x: Vec<f64> = (0..n)
+            .map(|k| 0.1 * k as f64 + rng.random_range(-0.003..0.003))
+            .collect();
+        let y: Vec<f64> = x
+            .iter()
+            .map(|&t| 1e-6 * (uptake(t / 10.0) + 0.002 * noise.sample(&mut rng)))
+            .collect();
+        cases.push(("uptake, jittered times", x.clone(), y));
+        let y: Vec<f64> = x
+            .iter()
+            .map(|&t| (1000.0 * (-t / 500.0).exp() + 0.5) * (1.0 + 0.03 * noise.sample(&mut rng)))
+            .collect();
+        cases.push(("decay over three decades, relative noise", x.clone(), y));
+        let y: Vec<f64> = (0..n)
+            .map(|_| ((21.5 + 0.03 * noise.sample(&mut rng)) * 10.0).round() / 10.0 + 273.15)
+            .collect();
+        cases.push(("flat trace read to 0.1", Vec::new(), y));
+        let xl = log_times(n);
+        let y: Vec<f64> = xl
+            .iter()
+            .map(|&t| 1e-6 * (fickian(t) + 0.0002 * noise.sample(&mut rng)))
+            .collect();
+        cases.push(("Fickian uptake, logarithmic times", xl, y));
+        let mut flags = 0;
+        for (name, x, y) in &mut cases {
+            for errors in [0, 3, 12] {
+                let mut y = y.clone();
+                plant(&mut y, errors, &mut rng);
+                let fast = find_outliers(x, &y);
+                let plain = reference::find_outliers(x, &y);
+                assert_eq!(fast, plain, "{name}, {errors} planted errors");
+                flags += fast.len();
+            }
+        }
+        assert!(flags >= 20, "too few flags to compare: {flags}");
+    }
+
+    /// The bracketed median and MAD equal the plain ones exactly, on sets with ties, a zero
+    /// MAD, sorted input (a biased sample) and both parities.
+    #[test]
+    fn bracketed_scale_equals_the_plain_scale() {
+        let mut rng = StdRng::seed_from_u64(5);
+        let n = BRACKET_MIN + 3;
+        let gauss: Vec<f64> = (0..n)
+            .map(|_| Normal::new(0.0, 2.0).map_or(0.0, |d| d.sample(&mut rng)))
+            .collect();
+        let mut sorted = gauss.clone();
+        sorted.sort_by(f64::total_cmp);
+        let ties: Vec<f64> = gauss.iter().map(|v| (v * 2.0).round() / 2.0).collect();
+        let mostly_zero: Vec<f64> = gauss
+            .iter()
+            .enumerate()
+            .map(|(i, &v)| if i % 3 == 0 { v } else { 0.0 })
+            .collect();
+        let skewed: Vec<f64> = gauss.iter().map(|v| v.exp()).collect();
+        let mut buf = Vec::new();
+        for (name, v) in [
+            ("gauss", &gauss),
+            ("sorted", &sorted),
+            ("ties", &ties),
+            ("mostly zero", &mostly_zero),
+            ("skewed", &skewed),
+        ] {
+            for len in [n, n - 1] {
+                let v = &v[..len];
+                let fast = robust_scale_fast(v, &mut buf, || v.to_vec());
+                assert_eq!(fast, robust_scale(v), "{name}, {len} values");
+            }
+        }
+    }
+
+    /// The written-out 3×3 solve and the shared-window fits give bit for bit the numbers of
+    /// the general ones.
+    #[test]
+    fn written_out_fits_equal_the_general_ones() {
+        use rand::Rng;
+        let mut rng = StdRng::seed_from_u64(11);
+        for trial in 0..2000 {
+            let mut u: Vec<f64> = (0..8)
+                .map(|k| {
+                    let base = if k < 4 {
+                        k as f64 - 4.0
+                    } else {
+                        k as f64 - 3.0
+                    };
+                    base * 0.1 + rng.random_range(-0.04..0.04)
+                })
+                .collect();
+            if trial % 7 == 0 {
+                u[3] = u[2]; // a repeated abscissa
+            }
+            let window = Window::new(&u);
+            let whole = window.weights(None).map(|w| (w.w, w.weight_sq));
+            assert_eq!(whole, fit_weights(&u, 2).map(|w| (w.w, w.weight_sq)));
+            let each = window.without_each();
+            for (k, part) in each.iter().enumerate() {
+                let rest: Vec<f64> = u
+                    .iter()
+                    .enumerate()
+                    .filter(|&(p, _)| p != k)
+                    .map(|(_, &v)| v)
+                    .collect();
+                let plain = fit_weights(&rest, 2).map(|w| (w.w, w.weight_sq));
+                assert_eq!(part.map(|w| (w.w, w.weight_sq)), plain, "{u:?} without {k}");
+                assert_eq!(
+                    window.weights(Some(k)).map(|w| (w.w, w.weight_sq)),
+                    plain,
+                    "{u:?} without {k}"
+                );
+            }
+            let s: Vec<f64> = u.iter().map(|v| v / 0.5).collect();
+            let mut power = [0.0; 5];
+            for &sj in &s {
+                let mut p = 1.0;
+                for pk in power.iter_mut() {
+                    *pk += p;
+                    p *= sj;
+                }
+            }
+            assert_eq!(solve_normal_3(&power, s.len()), solve_normal(&s, 2));
+        }
     }
 
     #[test]

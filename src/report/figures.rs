@@ -6,8 +6,9 @@
 
 use super::data::Report;
 use super::plot::{
-    correlation_svg, profile_figure, qq_figure, residual_figure, Figure, GuideKind, LegendPosition,
-    ProfileCurve, Series,
+    correlation_svg, grouped, profile_figure, qq_figure, residual_figure, thin_markers,
+    thinned_note, Figure, GuideKind, LegendPosition, ProfileCurve, Series, DRAW_ALL_UP_TO,
+    DRAW_BINS, QQ_TAIL,
 };
 use crate::analysis::Analysis;
 use crate::error::Result;
@@ -60,6 +61,46 @@ fn short(v: f64) -> String {
         "0".to_string()
     } else {
         s
+    }
+}
+
+/// Points drawn and points held by the thinned marker series of one figure (long series are
+/// thinned for drawing only; see [`super::plot::thin_markers`]).
+#[derive(Debug, Default)]
+struct Thinned {
+    shown: usize,
+    total: usize,
+}
+
+impl Thinned {
+    /// `series` (markers) thinned for drawing, counted.
+    fn markers(&mut self, series: Series) -> Series {
+        let (series, before) = thin_markers(series);
+        if let Some(n) = before {
+            self.shown += series.x.len();
+            self.total += n;
+        }
+        series
+    }
+
+    /// Put the note under `figure` and add a sentence to `caption` when something was
+    /// thinned; `axis` names the x axis (`time`, `depth`).
+    fn tell(&self, figure: &mut Figure, caption: &mut String, axis: &str) {
+        if self.total == 0 {
+            return;
+        }
+        let bins = grouped(DRAW_BINS);
+        figure.notes.push(thinned_note(
+            self.shown,
+            self.total,
+            &format!("lowest and highest in each of {bins} {axis} bins"),
+        ));
+        caption.push_str(&format!(
+            " For drawing only, {} of {} points are shown: the lowest and the highest value in \
+             each of {bins} bins along the {axis} axis (fitted.csv holds every point).",
+            grouped(self.shown),
+            grouped(self.total)
+        ));
     }
 }
 
@@ -121,6 +162,7 @@ pub fn figures(analysis: &Analysis) -> Result<Vec<NamedFigure>> {
                 label.clone(),
             );
             let mut resid_series = Vec::new();
+            let (mut thin_data, mut thin_resid) = (Thinned::default(), Thinned::default());
             for (k, &t) in ds.request.times.iter().enumerate() {
                 let (xd, yd): (Vec<f64>, Vec<f64>) = ds
                     .map
@@ -138,8 +180,12 @@ pub fn figures(analysis: &Analysis) -> Result<Vec<NamedFigure>> {
                     .map(|(_, r)| *r)
                     .collect();
                 let tl = format!("t = {} {tunit}", short(t / tscale));
-                resid_series.push(Series::markers(tl.clone(), xd.clone(), rr));
-                fig = fig.with_series(Series::markers(format!("data, {tl}"), xd, yd));
+                resid_series.push(thin_resid.markers(Series::markers(tl.clone(), xd.clone(), rr)));
+                fig = fig.with_series(thin_data.markers(Series::markers(
+                    format!("data, {tl}"),
+                    xd,
+                    yd,
+                )));
                 let yc: Vec<f64> = curve[k * dense_x.len()..(k + 1) * dense_x.len()]
                     .iter()
                     .map(|v| unit.from_si(*v))
@@ -150,23 +196,28 @@ pub fn figures(analysis: &Analysis) -> Result<Vec<NamedFigure>> {
                     yc,
                 ));
             }
+            let mut caption = format!(
+                "{}: measured profiles (markers) and the fitted model (lines).",
+                ds.name
+            );
+            thin_data.tell(&mut fig, &mut caption, "depth");
             out.push(NamedFigure {
                 stem: format!("data-{}", ds.name),
-                caption: format!(
-                    "{}: measured profiles (markers) and the fitted model (lines).",
-                    ds.name
-                ),
+                caption,
                 figure: fig,
             });
+            let mut caption = format!("{}: residuals (observed − fitted) against depth.", ds.name);
+            let mut figure = residual_figure(
+                format!("{}: residuals", ds.name),
+                format!("depth [{xu}]"),
+                format!("residual [{}]", ds.value_unit),
+                resid_series,
+            );
+            thin_resid.tell(&mut figure, &mut caption, "depth");
             out.push(NamedFigure {
                 stem: format!("residuals-{}", ds.name),
-                caption: format!("{}: residuals (observed − fitted) against depth.", ds.name),
-                figure: residual_figure(
-                    format!("{}: residuals", ds.name),
-                    format!("depth [{xu}]"),
-                    format!("residual [{}]", ds.value_unit),
-                    resid_series,
-                ),
+                caption,
+                figure,
             });
         } else {
             // Time series and sensors: one series per observable against time.
@@ -188,6 +239,7 @@ pub fn figures(analysis: &Analysis) -> Result<Vec<NamedFigure>> {
                 label.clone(),
             );
             let mut resid_series = Vec::new();
+            let (mut thin_data, mut thin_resid) = (Thinned::default(), Thinned::default());
             for o in 0..no {
                 let name = match ds.request.observables[o] {
                     Observable::ValueAt(x) => {
@@ -210,8 +262,16 @@ pub fn figures(analysis: &Analysis) -> Result<Vec<NamedFigure>> {
                     .filter(|(m, _)| m.0 == o)
                     .map(|(_, r)| *r)
                     .collect();
-                resid_series.push(Series::markers(name.clone(), td.clone(), rr));
-                fig = fig.with_series(Series::markers(format!("data, {name}"), td, yd));
+                resid_series.push(thin_resid.markers(Series::markers(
+                    name.clone(),
+                    td.clone(),
+                    rr,
+                )));
+                fig = fig.with_series(thin_data.markers(Series::markers(
+                    format!("data, {name}"),
+                    td,
+                    yd,
+                )));
                 let yc: Vec<f64> = curve[o * dense_t.len()..(o + 1) * dense_t.len()]
                     .iter()
                     .map(|v| unit.from_si(*v))
@@ -229,32 +289,52 @@ pub fn figures(analysis: &Analysis) -> Result<Vec<NamedFigure>> {
             if rising {
                 fig = fig.with_legend(LegendPosition::LowerRight);
             }
+            let mut caption = format!(
+                "{}: measurements (markers) and the fitted model (lines).",
+                ds.name
+            );
+            thin_data.tell(&mut fig, &mut caption, "time");
             out.push(NamedFigure {
                 stem: format!("data-{}", ds.name),
-                caption: format!(
-                    "{}: measurements (markers) and the fitted model (lines).",
-                    ds.name
-                ),
+                caption,
                 figure: fig,
             });
+            let mut caption = format!("{}: residuals (observed − fitted) against time.", ds.name);
+            let mut figure = residual_figure(
+                format!("{}: residuals", ds.name),
+                format!("time [{tunit}]"),
+                format!("residual [{}]", ds.value_unit),
+                resid_series,
+            );
+            thin_resid.tell(&mut figure, &mut caption, "time");
             out.push(NamedFigure {
                 stem: format!("residuals-{}", ds.name),
-                caption: format!("{}: residuals (observed − fitted) against time.", ds.name),
-                figure: residual_figure(
-                    format!("{}: residuals", ds.name),
-                    format!("time [{tunit}]"),
-                    format!("residual [{}]", ds.value_unit),
-                    resid_series,
-                ),
+                caption,
+                figure,
             });
         }
     }
+    let mut caption = "Normal Q–Q plot of the standardised residuals of all datasets: points \
+                       on the line mean normally distributed errors."
+        .to_string();
+    let figure = qq_figure(&std_residuals);
+    let finite = std_residuals.iter().filter(|r| r.is_finite()).count();
+    if finite > DRAW_ALL_UP_TO {
+        // The residual markers are the last series (after the reference line).
+        let drawn = figure.series.last().map_or(0, |s| s.x.len());
+        caption.push_str(&format!(
+            " For drawing only, {} of {} residuals are shown: the {} smallest and the {} \
+             largest in full and evenly spaced ranks between.",
+            grouped(drawn),
+            grouped(finite),
+            QQ_TAIL,
+            QQ_TAIL
+        ));
+    }
     out.push(NamedFigure {
         stem: "normal-qq".to_string(),
-        caption: "Normal Q–Q plot of the standardised residuals of all datasets: points on the \
-                  line mean normally distributed errors."
-            .to_string(),
-        figure: qq_figure(&std_residuals),
+        caption,
+        figure,
     });
     Ok(out)
 }

@@ -40,6 +40,7 @@ mod chart;
 mod figures;
 mod heatmap;
 mod raster_text;
+mod thin;
 
 use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicU64, Ordering};
@@ -54,6 +55,10 @@ pub use figures::{
     ProfileCurve, QqPoints, GAS_CONSTANT,
 };
 pub use heatmap::{correlation_png, correlation_svg};
+pub use thin::{
+    bin_extremes, grouped, qq_ranks, thin_markers, thinned_note, DRAW_ALL_UP_TO, DRAW_BINS,
+    QQ_SPACED, QQ_TAIL,
+};
 
 /// Default width of a figure in pixels.
 pub const DEFAULT_WIDTH: u32 = 720;

@@ -122,7 +122,10 @@ pub(crate) fn prepare(fig: &Figure) -> Prepared {
                 non_finite += 1;
             } else if fig.log_y && y <= 0.0 {
                 non_positive += 1;
-            } else if x.abs() > MAX_MAGNITUDE || y.abs() > MAX_MAGNITUDE || y < log_floor {
+            } else if x.abs() > MAX_MAGNITUDE
+                || y.abs() > MAX_MAGNITUDE
+                || (fig.log_y && y < log_floor)
+            {
                 out_of_range += 1;
             } else {
                 xs.add(x);

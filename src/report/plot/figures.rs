@@ -4,6 +4,7 @@
 
 use statrs::distribution::{ContinuousCDF, Normal};
 
+use super::thin::{qq_ranks, thinned_note, DRAW_ALL_UP_TO};
 use super::{tick_label, Figure, Guide, LegendPosition, Series, SeriesKind, Stroke};
 
 /// Molar gas constant R in J/(mol·K) (exact since the 2019 SI redefinition, CODATA 2018).
@@ -66,11 +67,43 @@ pub fn normal_qq_points(std_residuals: &[f64]) -> QqPoints {
     }
 }
 
+/// The points of a normal Q–Q plot at the order statistics of ranks `qq_ranks(n)` only
+/// (from 0; `n` finite residuals), for drawing a long series: the plotting positions are
+/// those of the whole sample.
+fn thinned_qq_points(std_residuals: &[f64]) -> QqPoints {
+    let mut sorted: Vec<f64> = std_residuals
+        .iter()
+        .copied()
+        .filter(|r| r.is_finite())
+        .collect();
+    let skipped_non_finite = std_residuals.len() - sorted.len();
+    sorted.sort_by(f64::total_cmp);
+    let n = sorted.len();
+    let normal = Normal::standard();
+    let ranks = qq_ranks(n);
+    QqPoints {
+        theoretical: ranks
+            .iter()
+            .map(|&r| normal.inverse_cdf(((r + 1) as f64 - 0.375) / (n as f64 + 0.25)))
+            .collect(),
+        sample: ranks.iter().map(|&r| sorted[r]).collect(),
+        skipped_non_finite,
+    }
+}
+
 /// A normal Q–Q plot of standardised residuals (markers) with the reference line y = x
 /// (standardised residuals from a correct model with correct uncertainties follow the
 /// standard normal distribution). Plotting positions (i − 0.375)/(n + 0.25) (Blom 1958).
+/// With more than [`DRAW_ALL_UP_TO`] finite residuals only the order statistics of
+/// [`qq_ranks`] are drawn (both tails in full), and a note says so.
 pub fn qq_figure(std_residuals: &[f64]) -> Figure {
-    let qq = normal_qq_points(std_residuals);
+    let finite = std_residuals.iter().filter(|r| r.is_finite()).count();
+    let thinned = finite > DRAW_ALL_UP_TO;
+    let qq = if thinned {
+        thinned_qq_points(std_residuals)
+    } else {
+        normal_qq_points(std_residuals)
+    };
     let mut fig = Figure::new(
         "Normal Q–Q plot of standardised residuals",
         "standard normal quantile Φ⁻¹(p)",
@@ -98,8 +131,15 @@ pub fn qq_figure(std_residuals: &[f64]) -> Figure {
         y: ends,
         kind: SeriesKind::Reference,
     });
+    if thinned {
+        fig.notes.push(thinned_note(
+            qq.sample.len(),
+            finite,
+            "both tails in full, evenly spaced ranks between",
+        ));
+    }
     fig.series.push(Series::markers(
-        format!("residuals (n = {})", qq.sample.len()),
+        format!("residuals (n = {finite})"),
         qq.theoretical,
         qq.sample,
     ));

@@ -47,7 +47,7 @@ pub fn simulate(
         .map_err(|e| crate::Error::setting("noise", e.to_string()))?;
     let mut solver = Solver::new(experiment.solver.clone())?;
     let mut table = SimulatedTable::default();
-    for d in &experiment.datasets {
+    for d in experiment.datasets.iter() {
         let model = d.model_for(params)?;
         let solution = solver.solve(&model, &d.request_for(params))?;
         let predicted = d.predict(params, solution)?;

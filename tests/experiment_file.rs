@@ -126,7 +126,7 @@ fn one_diffusivity_is_shared_by_both_runs() {
     let i = e.parameter_index("D").unwrap();
     let mut p = e.start_values();
     p[i] = 7.0e-13;
-    for d in &e.datasets {
+    for d in e.datasets.iter() {
         let m = d.model_for(&p).unwrap();
         assert_eq!(
             m.geometry.layers[0].diffusivity,
@@ -608,7 +608,7 @@ fn every_example_solves_at_its_start_values() {
         let e = load(f);
         let p = e.start_values();
         let mut solver = Solver::new(e.solver.clone()).unwrap();
-        for d in &e.datasets {
+        for d in e.datasets.iter() {
             let model = d.model_for(&p).unwrap();
             let sol = solver
                 .solve(&model, &d.request)

@@ -375,7 +375,7 @@ fn damaged_experiment_files_load_or_fail_located() {
         match experiment::from_str(&text, Path::new("x.toml"), &experiments()) {
             Ok(e) => {
                 prop_assert!(!e.datasets.is_empty());
-                for d in &e.datasets {
+                for d in e.datasets.iter() {
                     prop_assert!(d.observed.iter().chain(&d.sigma).all(|x| x.is_finite()));
                 }
                 // A start is a finite value, or NaN for one still to be derived from the data.

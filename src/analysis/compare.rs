@@ -63,7 +63,7 @@ pub fn compare(models: &[&Analysis]) -> Result<Comparison> {
             )));
         }
         let mut total = 0.0;
-        for (d, (ds, rds)) in e.datasets.iter().zip(&re.datasets).enumerate() {
+        for (d, (ds, rds)) in e.datasets.iter().zip(re.datasets.iter()).enumerate() {
             if ds.observed != rds.observed || ds.sigma.len() != rds.sigma.len() {
                 return Err(Error::Fit(format!(
                     "dataset {} ('{}') of '{name}' holds other values than dataset '{}' of '{}': \

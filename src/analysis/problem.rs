@@ -64,7 +64,7 @@ impl ExperimentProblem {
         let mut runs = Vec::with_capacity(experiment.datasets.len());
         let mut offsets = Vec::with_capacity(experiment.datasets.len() + 1);
         let mut n = 0;
-        for d in &experiment.datasets {
+        for d in experiment.datasets.iter() {
             offsets.push(n);
             n += d.len();
             runs.push(RunState {

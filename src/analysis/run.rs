@@ -253,7 +253,7 @@ fn data_warnings(experiment: &Experiment, result: &FitResult) -> Vec<FitWarning>
                 | Observable::FractionalUptake
         )
     };
-    for d in &experiment.datasets {
+    for d in experiment.datasets.iter() {
         if d.request.observables.is_empty() || !d.request.observables.iter().all(uptake_like) {
             continue;
         }

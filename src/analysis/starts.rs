@@ -63,7 +63,7 @@ pub fn values_for_models(experiment: &Experiment) -> Vec<f64> {
 /// (parameter, value, how).
 fn exposure_starts(experiment: &Experiment) -> Vec<(usize, f64, String)> {
     let mut found: BTreeMap<usize, Vec<(f64, String)>> = BTreeMap::new();
-    for d in &experiment.datasets {
+    for d in experiment.datasets.iter() {
         let Some(i) = d.exposure_start_parameter() else {
             continue;
         };
@@ -331,7 +331,7 @@ impl Search {
         linear: &[usize],
     ) -> Result<f64> {
         let mut total = 0.0;
-        for d in &experiment.datasets {
+        for d in experiment.datasets.iter() {
             let model = d.model_for(values)?;
             let sol = self.solver.solve(&model, &d.request_for(values))?;
             let raw: Vec<f64> = d.map.iter().map(|&(o, k)| sol.get(o, k)).collect();

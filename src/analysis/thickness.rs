@@ -212,7 +212,7 @@ fn fit_group(
 ) -> std::result::Result<SizeEstimate, String> {
     let e = &analysis.experiment;
     let mut sub = (**e).clone();
-    sub.datasets = datasets.iter().map(|&i| e.datasets[i].clone()).collect();
+    sub.datasets = Arc::new(datasets.iter().map(|&i| e.datasets[i].clone()).collect());
     sub.derived.clear();
     let used: BTreeSet<usize> = sub
         .datasets

@@ -156,7 +156,7 @@ pub fn check(args: &CheckArgs) -> anyhow::Result<Outcome> {
         )?;
     }
     writeln!(out, "datasets ({} points in all):", e.point_count())?;
-    for d in &e.datasets {
+    for d in e.datasets.iter() {
         writeln!(
             out,
             "  {:<20} {} points from {} at {} times",
@@ -220,7 +220,7 @@ pub fn simulate(args: &SimulateArgs) -> anyhow::Result<Outcome> {
     let written = fickfit::experiment::parse_str(&text, &args.experiment)?;
     let n = experiment.datasets.len();
     let mut targets = Vec::with_capacity(n);
-    for ds in &experiment.datasets {
+    for ds in experiment.datasets.iter() {
         let path = if n == 1 {
             args.out.clone()
         } else {
@@ -259,7 +259,7 @@ pub fn simulate(args: &SimulateArgs) -> anyhow::Result<Outcome> {
     for (d, (spec, ds)) in written
         .datasets
         .iter()
-        .zip(&experiment.datasets)
+        .zip(experiment.datasets.iter())
         .enumerate()
     {
         let columns: Vec<String> = match spec.layout {

@@ -8,6 +8,7 @@
 use std::borrow::Cow;
 use std::collections::{BTreeMap, HashMap};
 use std::path::{Path, PathBuf};
+use std::sync::Arc;
 
 use super::floor::{self, BelowLimit, DetectionLimit, PointVectors};
 use super::locate::SpanIndex;
@@ -673,8 +674,9 @@ pub struct Experiment {
     pub value_unit: String,
     /// Every parameter (free and fixed), in order of first use.
     pub parameters: Vec<Parameter>,
-    /// The runs, in file order.
-    pub datasets: Vec<Dataset>,
+    /// The runs, in file order. Shared between copies of the experiment (a copy with other
+    /// start values or another thickness does not copy the data, which can be 10⁶ points).
+    pub datasets: Arc<Vec<Dataset>>,
     /// Solver options.
     pub solver: SolverOptions,
     /// Fit options.
@@ -1767,7 +1769,7 @@ pub(super) fn build(file: &ExperimentFile, index: &SpanIndex, base: &Path) -> Re
         title: file.title.clone(),
         value_unit: file.sample.value_unit.clone(),
         parameters: params,
-        datasets,
+        datasets: Arc::new(datasets),
         solver: solver_options(&file.solver, index)?,
         fit: fit_options(&file.fit, index)?,
         derived: Vec::new(),
@@ -1791,7 +1793,7 @@ pub(super) fn build(file: &ExperimentFile, index: &SpanIndex, base: &Path) -> Re
             }
         })
         .collect();
-    for d in &exp.datasets {
+    for d in exp.datasets.iter() {
         if let Err(e) = d.model_for(&start) {
             return Err(Error::input(
                 InputKind::BadValue,

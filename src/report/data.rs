@@ -640,7 +640,7 @@ impl Report {
             })
             .collect();
         let mut warnings: Vec<String> = f.warnings.iter().map(|w| w.message.clone()).collect();
-        for ds in &e.datasets {
+        for ds in e.datasets.iter() {
             for w in &ds.warnings {
                 warnings.push(format!("{}: {}", w.location, w.message));
             }

@@ -151,7 +151,7 @@ pub fn render(
     comparison_section(&mut h, report);
 
     h.push_str("<h2>Residual checks</h2>\n<table><tr><th>dataset</th><th>points</th><th>runs (expected)</th><th>Durbin–Watson</th><th>verdict</th></tr>\n");
-    for d in &report.datasets {
+    for d in report.datasets.iter() {
         let _ = writeln!(
             h,
             "<tr><td>{}</td><td>{}</td><td>{} ({})</td><td>{}</td><td>{}</td></tr>",
@@ -164,7 +164,7 @@ pub fn render(
         );
     }
     h.push_str("</table>\n");
-    for d in &report.datasets {
+    for d in report.datasets.iter() {
         if let Some(dl) = &d.detection_limit {
             let _ = writeln!(
                 h,

@@ -223,7 +223,7 @@ pub fn write_summary(report: &Report, out: &mut dyn Write) -> io::Result<()> {
         "     {} after {} iterations ({} model evaluations)",
         f.stop_reason, f.iterations, f.evaluations
     )?;
-    for d in &report.datasets {
+    for d in report.datasets.iter() {
         writeln!(
             out,
             "dataset {} ({} points): {}",

@@ -34,7 +34,7 @@ use crate::fit::nelder_mead::nelder_mead;
 use crate::fit::params::{ParamSet, ParamSpec};
 use crate::fit::problem::{Evaluator, ResidualProblem};
 use crate::fit::profile::{profile_all, ProfileInterval, ProfileOptions};
-use crate::stats::covariance::{covariance, Covariance};
+use crate::stats::covariance::{covariance_without, Covariance};
 use crate::stats::derived::{delta_method, DerivedValue, ExtraInput};
 use crate::stats::goodness::{goodness, Goodness};
 use crate::stats::identifiability::{identifiability_warnings, FitWarning, WarningKind};
@@ -254,6 +254,48 @@ fn better(a: &LmOutcome, b: &LmOutcome) -> bool {
 }
 
 /// Search from all starts (given start, extra starts, random starts) and polish.
+/// Largest effect, in units of the noise, that a change of a log-scale parameter by a factor e
+/// may have on the residuals (their Euclidean norm) for the parameter to count as
+/// insensitive: `‖∂r/∂ln x‖ < 0.1 √s²` means moving it by a whole factor e changes χ² by less
+/// than 0.01, so that a 95 % interval (Δχ² = 3.84) would span more than e^19.6, a factor of
+/// 3·10⁸, even before the other parameters take up part of the change. Data that determine a
+/// parameter to within a factor of ten give `‖∂r/∂ln x‖ ≳ 0.85`.
+const INSENSITIVE_EFFECT: f64 = 0.1;
+
+/// Free parameters on a log scale whose Jacobian column is below [`INSENSITIVE_EFFECT`]:
+/// `‖J_j‖ · |x_j / (dx_j/du_j)| < 0.1 √scale` (the column per unit of ln x; `scale` the
+/// residual variance, 1 for absolute σ). Linear-scale parameters are never flagged: they
+/// have no natural unit of change, and an offset near zero is not insensitive.
+fn insensitive_parameters(
+    jac: &nalgebra::DMatrix<f64>,
+    scale: f64,
+    dx_du: &[f64],
+    set: &ParamSet,
+    full: &[f64],
+) -> Vec<bool> {
+    let noise = scale.max(0.0).sqrt();
+    set.free_indices()
+        .iter()
+        .enumerate()
+        .map(|(j, &i)| {
+            let spec = &set.specs()[i];
+            let x = full.get(i).copied().unwrap_or(f64::NAN);
+            let slope = dx_du.get(j).copied().unwrap_or(f64::NAN);
+            if spec.transform != crate::fit::params::Transform::Log
+                || x.is_nan()
+                || x <= 0.0
+                || !slope.is_finite()
+                || slope == 0.0
+                || j >= jac.ncols()
+            {
+                return false;
+            }
+            let effect = jac.column(j).norm() * (x / slope).abs();
+            effect.is_finite() && effect < INSENSITIVE_EFFECT * noise
+        })
+        .collect()
+}
+
 pub(crate) fn search<P: ResidualProblem>(
     ev: &mut Evaluator<P>,
     opts: &FitOptions,
@@ -486,8 +528,9 @@ pub fn fit<P: ResidualProblem>(
         Weighting::Absolute { rescale: false } => (1.0, true),
     };
     let dx = set.dx_du(&u);
-    let cov = covariance(&jac, scale, &dx, opts.rank_tol);
     let full = ev.external(&u);
+    let insensitive = insensitive_parameters(&jac, scale, &dx, &set, &full);
+    let cov = covariance_without(&jac, scale, &dx, opts.rank_tol, &insensitive);
     let free_estimates: Vec<f64> = set.free_indices().iter().map(|&i| full[i]).collect();
     let obs = problem
         .observations()

@@ -10,6 +10,14 @@
 //! and correlations are reported as absent (`None`), not as numbers. The others are estimable
 //! and get the pseudo-inverse values.
 //!
+//! A parameter can also be declared *insensitive* by the caller (see
+//! [`crate::fit::engine`]: a log-scale parameter whose change by a factor e moves the
+//! residuals by less than a tenth of the noise): its column is set to zero before the
+//! SVD, so it becomes a null direction of its own and the others get the covariance they
+//! have with it held fixed. Without this, a column made only of the forward model's numerical
+//! noise (relative 1e-10, say) is scaled to unit norm like any other and can look strongly
+//! correlated with an offset or a scale, inflating their standard errors for nothing.
+//!
 //! User-space covariance by the chain rule: `C_x = G C_u G`, `G = diag(dx/du)`.
 //! Reported condition number: `κ(J_sᵀ J_s) = (s_max/s_min)²` of the column-scaled matrix.
 //!
@@ -30,8 +38,12 @@ pub struct Covariance {
     pub condition_number: f64,
     /// Scale factor used (`s²`, or 1 for absolute σ without rescaling).
     pub scale: f64,
-    /// Indices (among the free parameters) that are not identifiable.
+    /// Indices (among the free parameters) that are not identifiable (including the
+    /// insensitive ones).
     pub non_identifiable: Vec<usize>,
+    /// Indices of the parameters the caller declared insensitive (left out, see the module
+    /// docs).
+    pub insensitive: Vec<usize>,
     /// Covariance in internal coordinates (`None` where not identifiable).
     pub internal: Vec<Vec<Option<f64>>>,
     /// Covariance in user space, SI (`None` where not identifiable).
@@ -47,6 +59,18 @@ pub struct Covariance {
 /// Covariance from the Jacobian `jac` (n × p, internal coordinates), the scale `s²`, the
 /// chain-rule factors `dx/du` and the relative rank tolerance.
 pub fn covariance(jac: &DMatrix<f64>, scale: f64, dx_du: &[f64], rank_tol: f64) -> Covariance {
+    covariance_without(jac, scale, dx_du, rank_tol, &vec![false; jac.ncols()])
+}
+
+/// [`covariance`] with the parameters flagged in `insensitive` left out (their columns taken
+/// as zero; see the module docs).
+pub fn covariance_without(
+    jac: &DMatrix<f64>,
+    scale: f64,
+    dx_du: &[f64],
+    rank_tol: f64,
+    insensitive: &[bool],
+) -> Covariance {
     let p = jac.ncols();
     let mut colnorm = vec![1.0; p];
     let mut js = jac.clone();
@@ -55,7 +79,12 @@ pub fn covariance(jac: &DMatrix<f64>, scale: f64, dx_du: &[f64], rank_tol: f64) 
         if nj > 0.0 && nj.is_finite() {
             *c = nj;
         }
-        js.column_mut(j).scale_mut(1.0 / *c);
+        let factor = if insensitive.get(j).copied().unwrap_or(false) {
+            0.0
+        } else {
+            1.0 / *c
+        };
+        js.column_mut(j).scale_mut(factor);
     }
     let svd = js.svd(false, true);
     let s: Vec<f64> = svd.singular_values.iter().copied().collect();
@@ -142,6 +171,9 @@ pub fn covariance(jac: &DMatrix<f64>, scale: f64, dx_du: &[f64], rank_tol: f64) 
         condition_number,
         scale,
         non_identifiable,
+        insensitive: (0..p)
+            .filter(|&j| insensitive.get(j).copied().unwrap_or(false))
+            .collect(),
         internal,
         external,
         std_errors,
@@ -171,6 +203,34 @@ mod tests {
         }
         let r = c.correlation[0][1].unwrap();
         assert!((r + 0.3 / (0.7f64 * 0.2).sqrt()).abs() < 1e-12);
+    }
+
+    /// A third column of numerical noise almost parallel to the intercept's, declared
+    /// insensitive, leaves the line's covariance as if it were absent (the same hand-computed
+    /// `(JᵀJ)⁻¹` as above: the covariance of the others with it held fixed, common practice);
+    /// without the flag, the noise column is scaled up and inflates the intercept's variance.
+    #[test]
+    #[allow(clippy::needless_range_loop)]
+    fn insensitive_column_is_left_out() {
+        let noise = [1e-12, 1.1e-12, 0.9e-12, 1.05e-12];
+        let mut rows = Vec::new();
+        for (i, n) in noise.iter().enumerate() {
+            rows.extend_from_slice(&[1.0, i as f64, *n]);
+        }
+        let jac = DMatrix::from_row_slice(4, 3, &rows);
+        let c = covariance_without(&jac, 2.0, &[1.0, 1.0, 1.0], 1e-10, &[false, false, true]);
+        assert_eq!(c.insensitive, vec![2]);
+        assert_eq!(c.non_identifiable, vec![2]);
+        assert!(c.std_errors[2].is_none());
+        let e = [[0.7, -0.3], [-0.3, 0.2]];
+        for a in 0..2 {
+            for b in 0..2 {
+                let v = c.external[a][b].unwrap();
+                assert!((v - 2.0 * e[a][b]).abs() < 1e-12, "{a}{b}: {v}");
+            }
+        }
+        let plain = covariance(&jac, 2.0, &[1.0, 1.0, 1.0], 1e-10);
+        assert!(plain.std_errors[0].unwrap() > 3.0 * c.std_errors[0].unwrap());
     }
 
     #[test]

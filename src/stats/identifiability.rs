@@ -190,9 +190,33 @@ pub fn identifiability_warnings(
     cov: &Covariance,
 ) -> Vec<FitWarning> {
     let mut w = Vec::new();
-    if !cov.non_identifiable.is_empty() {
-        let names: Vec<String> = cov
-            .non_identifiable
+    let insensitive: Vec<String> = cov
+        .insensitive
+        .iter()
+        .filter_map(|&j| specs.get(j).map(|s| s.name.clone()))
+        .collect();
+    if !insensitive.is_empty() {
+        w.push(FitWarning {
+            message: format!(
+                "not identifiable: changing {} by a whole factor of e moves the fitted curve by \
+                 less than a tenth of the noise (a 95 % interval would span more than a factor of 10⁸), so the data do not determine it; \
+                 it is left out of the other parameters' uncertainties (they are given with it \
+                 held at its estimate). Fix it, or measure where it matters.",
+                insensitive.join(", ")
+            ),
+            kind: WarningKind::NotIdentifiable {
+                parameters: insensitive,
+            },
+        });
+    }
+    let combined: Vec<usize> = cov
+        .non_identifiable
+        .iter()
+        .copied()
+        .filter(|j| !cov.insensitive.contains(j))
+        .collect();
+    if !combined.is_empty() {
+        let names: Vec<String> = combined
             .iter()
             .filter_map(|&j| specs.get(j).map(|s| s.name.clone()))
             .collect();

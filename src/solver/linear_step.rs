@@ -64,14 +64,17 @@ pub(crate) struct Vectors<'a> {
     pub delta: &'a mut [f64],
 }
 
-/// Weight of the error norm: every component is weighted by `tol · s`, with
+/// Weight of the error norm: the volume-weighted RMS of the estimate,
+/// `√(Σ V_i e_i² / Σ V_i)` (the discrete L² norm of the error, independent of how finely the
+/// grid is refined near a face), relative to `tol · s`, with
 /// `s = max(scale, max_i |u_i − reference|)` (`max(|reference|, 1)` when that is 0): the span
-/// the values cover, not their level.
+/// the values cover, not their level. `measure_total` is `Σ V_i`.
 #[derive(Debug, Clone, Copy)]
 pub(crate) struct ErrorWeights {
     pub tolerance: f64,
     pub scale: f64,
     pub reference: f64,
+    pub measure_total: f64,
 }
 
 /// What a step reports.
@@ -81,7 +84,7 @@ pub(crate) struct Outcome {
     pub finite: bool,
     /// Σ measures_i u_{n+1,i} (times the shape's measure factor: the amount).
     pub measure_sum: f64,
-    /// RMS weighted error estimate (0 without the estimate).
+    /// Volume-weighted RMS error estimate relative to `tol · s` (0 without the estimate).
     pub error_norm: f64,
 }
 
@@ -234,15 +237,15 @@ pub(crate) fn step<const ESTIMATE: bool>(
     let s = weights.scale.max(umax);
     let s = if s > 0.0 { s } else { reference.abs().max(1.0) };
     let mut e = est[n - 1];
-    let mut acc = e * e;
+    let mut acc = measures[n - 1] * e * e;
     for i in (0..n - 1).rev() {
         e = est[i] - g(i) * e;
         est[i] = e;
-        acc += e * e;
+        acc += measures[i] * e * e;
     }
     Outcome {
         finite,
         measure_sum: sum,
-        error_norm: (acc / n as f64).sqrt() / (weights.tolerance * s),
+        error_norm: (acc / weights.measure_total).sqrt() / (weights.tolerance * s),
     }
 }

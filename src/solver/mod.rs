@@ -707,8 +707,11 @@ impl Solver {
                 } else {
                     reference.abs().max(1.0)
                 };
-                let sum: f64 = w.est.iter().map(|e| e * e).sum();
-                (sum / n as f64).sqrt() / (tol * sc)
+                // Volume-weighted RMS (the discrete L² norm), as in the linear step.
+                let measures = &self.grid.measures;
+                let sum: f64 = w.est.iter().zip(measures).map(|(e, m)| m * e * e).sum();
+                let total: f64 = measures.iter().sum();
+                (sum / total).sqrt() / (tol * sc)
             } else {
                 0.0
             };
@@ -1036,6 +1039,7 @@ impl Solver {
             tolerance: self.options.tolerance,
             scale,
             reference: self.value_reference,
+            measure_total: self.grid.measures.iter().sum(),
         };
         let measures = &self.grid.measures;
         let out = if estimate {

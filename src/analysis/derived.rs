@@ -21,8 +21,8 @@
 use super::Analysis;
 use crate::error::{Error, Result};
 use crate::experiment::{DerivedWhat, Experiment};
-use crate::model::End;
-use crate::solver::{Observable, Request, Solver, StepPlan};
+use crate::model::{End, Model};
+use crate::solver::{Observable, Request, Solution, Solver, StepPlan};
 use crate::stats::derived::ExtraInput;
 use std::cell::RefCell;
 
@@ -372,6 +372,9 @@ struct Replayed<'a> {
     request: Request,
     solver: RefCell<Solver>,
     schedule: Vec<f64>,
+    /// The last model solved and its solution: a derivative with respect to a parameter the
+    /// model does not depend on (a scale, an offset, an exposure start) needs no new solve.
+    last: RefCell<Option<(Model, Solution)>>,
 }
 
 impl<'a> Replayed<'a> {
@@ -387,6 +390,7 @@ impl<'a> Replayed<'a> {
             request,
             solver: RefCell::new(solver),
             schedule,
+            last: RefCell::new(None),
         })
     }
 
@@ -396,9 +400,19 @@ impl<'a> Replayed<'a> {
         let Ok(model) = self.experiment.datasets[self.dataset].model_for(theta) else {
             return vec![f64::NAN; n];
         };
+        let mut last = self.last.borrow_mut();
+        if let Some((m, sol)) = last.as_ref() {
+            if *m == model {
+                return sol.series(o).to_vec();
+            }
+        }
         let mut solver = self.solver.borrow_mut();
         match solver.solve_with(&model, &self.request, StepPlan::Replay(&self.schedule)) {
-            Ok(sol) => sol.series(o).to_vec(),
+            Ok(sol) => {
+                let series = sol.series(o).to_vec();
+                *last = Some((model, sol.clone()));
+                series
+            }
             Err(_) => vec![f64::NAN; n],
         }
     }

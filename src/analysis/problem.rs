@@ -213,11 +213,43 @@ fn solve_run(dataset: &Dataset, run: &mut RunState, typical: &[f64], params: &[f
 
 /// One perturbed point of one run in a batch: solved on a spare solver, replaying the run's
 /// base steps when near it, never changing the run's own state.
-struct Task {
+/// A spare solver taken from a pool (or cloned from the run's own when the pool is empty)
+/// and put back when dropped.
+struct Lent<'p> {
+    solver: Option<Solver>,
+    pool: &'p std::sync::Mutex<Vec<Solver>>,
+}
+
+impl<'p> Lent<'p> {
+    fn take(pool: &'p std::sync::Mutex<Vec<Solver>>, template: &Solver) -> Self {
+        let spare = pool.lock().ok().and_then(|mut p| p.pop());
+        Lent {
+            solver: Some(spare.unwrap_or_else(|| template.clone())),
+            pool,
+        }
+    }
+
+    fn solver(&mut self) -> &mut Solver {
+        // Present from `take` until `drop`.
+        self.solver
+            .as_mut()
+            .expect("a lent solver is only given back on drop")
+    }
+}
+
+impl Drop for Lent<'_> {
+    fn drop(&mut self) {
+        if let (Some(s), Ok(mut pool)) = (self.solver.take(), self.pool.lock()) {
+            pool.push(s);
+        }
+    }
+}
+
+struct Task<'d> {
     point: usize,
     model: Model,
-    request: Request,
-    solver: Solver,
+    /// The data times on the model's clock: borrowed unless an exposure start shifts them.
+    request: std::borrow::Cow<'d, Request>,
     schedule: Option<Vec<f64>>,
     result: Result<Solution>,
 }
@@ -297,12 +329,10 @@ impl ResidualProblem for ExperimentProblem {
                 match dataset.model_for(point) {
                     Ok(model) if model == base_model && Some(start) == base_start => {}
                     Ok(model) => {
-                        let solver = run.spares.pop().unwrap_or_else(|| run.solver.clone());
                         tasks.push(Task {
                             point: k,
                             model,
-                            request: dataset.request_for(point).into_owned(),
-                            solver,
+                            request: dataset.request_for(point),
                             schedule: replay_steps(dataset, run, typical, point),
                             result: Ok(Solution::default()),
                         });
@@ -310,25 +340,34 @@ impl ResidualProblem for ExperimentProblem {
                     Err(e) => status[k] = Err(e),
                 }
             }
-            tasks.par_iter_mut().for_each(|task| {
-                let plan = match &task.schedule {
-                    Some(s) => StepPlan::Replay(s),
-                    None => StepPlan::Adaptive,
-                };
-                let replayed = task.solver.solve_with(&task.model, &task.request, plan);
-                task.result = match replayed {
-                    Ok(sol) => Ok(sol.clone()),
-                    Err(_) if task.schedule.is_some() => {
-                        task.solver.solve(&task.model, &task.request).cloned()
-                    }
-                    Err(e) => Err(e),
-                };
-            });
+            // Spare solvers are lent to rayon's workers, one per worker at a time, and come
+            // back to the run: their buffers grow with the number of data times, so one per
+            // task would cost a copy per Jacobian column (tens of MB at 10⁶ points).
+            let pool = std::sync::Mutex::new(std::mem::take(&mut run.spares));
+            let main_solver = &run.solver;
+            tasks.par_iter_mut().for_each_init(
+                || Lent::take(&pool, main_solver),
+                |lent, task| {
+                    let solver = lent.solver();
+                    let plan = match &task.schedule {
+                        Some(s) => StepPlan::Replay(s),
+                        None => StepPlan::Adaptive,
+                    };
+                    let replayed = solver.solve_with(&task.model, &task.request, plan);
+                    task.result = match replayed {
+                        Ok(sol) => Ok(sol.clone()),
+                        Err(_) if task.schedule.is_some() => {
+                            solver.solve(&task.model, &task.request).cloned()
+                        }
+                        Err(e) => Err(e),
+                    };
+                },
+            );
+            run.spares = pool.into_inner().unwrap_or_else(|p| p.into_inner());
             let mut pred = Vec::with_capacity(dataset.len());
             let mut solved: Vec<Option<Result<Solution>>> =
                 (0..points.len()).map(|_| None).collect();
             for task in tasks {
-                run.spares.push(task.solver);
                 solved[task.point] = Some(task.result);
             }
             for (k, point) in points.iter().enumerate() {

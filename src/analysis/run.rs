@@ -210,8 +210,14 @@ pub fn analyse(experiment: Arc<Experiment>, options: &AnalysisOptions) -> Result
         derived: Vec::new(),
         thickness_scaling: None,
     };
-    analysis.derived = super::derived::derive_all(&analysis);
-    analysis.thickness_scaling = super::thickness::check(&analysis);
+    // The derived quantities (serial solves) and the thickness check (refits, themselves in
+    // parallel) share the cores.
+    let (derived, thickness) = rayon::join(
+        || super::derived::derive_all(&analysis),
+        || super::thickness::check(&analysis),
+    );
+    analysis.derived = derived;
+    analysis.thickness_scaling = thickness;
     Ok(analysis)
 }
 

@@ -245,13 +245,17 @@ impl Drop for Lent<'_> {
     }
 }
 
-struct Task<'d> {
-    point: usize,
+struct Task<'d, 'o> {
+    /// Index of the point in the batch.
+    index: usize,
+    point: &'d [f64],
     model: Model,
     /// The data times on the model's clock: borrowed unless an exposure start shifts them.
     request: std::borrow::Cow<'d, Request>,
     schedule: Option<Vec<f64>>,
-    result: Result<Solution>,
+    /// This run's part of the point's residual vector.
+    out: &'o mut [f64],
+    result: Result<()>,
 }
 
 impl ResidualProblem for ExperimentProblem {
@@ -302,7 +306,7 @@ impl ResidualProblem for ExperimentProblem {
         &mut self,
         base: &[f64],
         points: &[Vec<f64>],
-        outs: &mut [Vec<f64>],
+        outs: &mut [&mut [f64]],
     ) -> Vec<Result<()>> {
         let mut status: Vec<Result<()>> = (0..points.len()).map(|_| Ok(())).collect();
         if let Err(e) = self.solve_all(base) {
@@ -320,21 +324,35 @@ impl ResidualProblem for ExperimentProblem {
                 continue;
             };
             let base_start = run.last_start;
+            let (scale, range) = (self.scales[d], self.offsets[d]..self.offsets[d + 1]);
+            let write = |point: &[f64], sol: &Solution, pred: &mut Vec<f64>, out: &mut [f64]| {
+                dataset.predict_into(point, sol, pred)?;
+                for (i, (o, f)) in out.iter_mut().zip(pred.iter()).enumerate() {
+                    *o = dataset.residual(i, *f, dataset.sigma[i] * scale);
+                }
+                Ok(())
+            };
             let mut tasks = Vec::new();
-            for (k, point) in points.iter().enumerate() {
+            let mut unchanged = Vec::new();
+            for ((k, point), out) in points.iter().enumerate().zip(outs.iter_mut()) {
                 if status[k].is_err() {
                     continue;
                 }
+                let out = &mut out[range.clone()];
                 let start = dataset.exposure_start(point);
                 match dataset.model_for(point) {
-                    Ok(model) if model == base_model && Some(start) == base_start => {}
+                    Ok(model) if model == base_model && Some(start) == base_start => {
+                        unchanged.push((k, out));
+                    }
                     Ok(model) => {
                         tasks.push(Task {
-                            point: k,
+                            index: k,
+                            point,
                             model,
                             request: dataset.request_for(point),
                             schedule: replay_steps(dataset, run, typical, point),
-                            result: Ok(Solution::default()),
+                            out,
+                            result: Ok(()),
                         });
                     }
                     Err(e) => status[k] = Err(e),
@@ -342,52 +360,41 @@ impl ResidualProblem for ExperimentProblem {
             }
             // Spare solvers are lent to rayon's workers, one per worker at a time, and come
             // back to the run: their buffers grow with the number of data times, so one per
-            // task would cost a copy per Jacobian column (tens of MB at 10⁶ points).
+            // task would cost a copy per Jacobian column (tens of MB at 10⁶ points). Each task
+            // writes its residuals as soon as it is solved, so no solution is kept.
             let pool = std::sync::Mutex::new(std::mem::take(&mut run.spares));
             let main_solver = &run.solver;
             tasks.par_iter_mut().for_each_init(
-                || Lent::take(&pool, main_solver),
-                |lent, task| {
+                || (Lent::take(&pool, main_solver), Vec::new()),
+                |(lent, pred), task| {
                     let solver = lent.solver();
                     let plan = match &task.schedule {
                         Some(s) => StepPlan::Replay(s),
                         None => StepPlan::Adaptive,
                     };
-                    let replayed = solver.solve_with(&task.model, &task.request, plan);
-                    task.result = match replayed {
-                        Ok(sol) => Ok(sol.clone()),
+                    let solved = match solver.solve_with(&task.model, &task.request, plan) {
+                        Ok(_) => Ok(()),
                         Err(_) if task.schedule.is_some() => {
-                            solver.solve(&task.model, &task.request).cloned()
+                            solver.solve(&task.model, &task.request).map(|_| ())
                         }
                         Err(e) => Err(e),
                     };
+                    task.result = solved.and_then(|()| {
+                        let sol = solver.solution();
+                        write(task.point, sol, pred, task.out)
+                    });
                 },
             );
             run.spares = pool.into_inner().unwrap_or_else(|p| p.into_inner());
-            let mut pred = Vec::with_capacity(dataset.len());
-            let mut solved: Vec<Option<Result<Solution>>> =
-                (0..points.len()).map(|_| None).collect();
             for task in tasks {
-                solved[task.point] = Some(task.result);
-            }
-            for (k, point) in points.iter().enumerate() {
-                if status[k].is_err() {
-                    continue;
+                if let Err(e) = task.result {
+                    status[task.index] = Err(e);
                 }
-                let r = match solved[k].take() {
-                    Some(Ok(sol)) => dataset.predict_into(point, &sol, &mut pred),
-                    Some(Err(e)) => Err(e),
-                    None => dataset.predict_into(point, &run.last_solution, &mut pred),
-                };
-                match r {
-                    Ok(()) => {
-                        let out = &mut outs[k];
-                        let (s, off) = (self.scales[d], self.offsets[d]);
-                        for i in 0..dataset.len() {
-                            out[off + i] = dataset.residual(i, pred[i], dataset.sigma[i] * s);
-                        }
-                    }
-                    Err(e) => status[k] = Err(e),
+            }
+            let mut pred = Vec::new();
+            for (k, out) in unchanged {
+                if let Err(e) = write(&points[k], &run.last_solution, &mut pred, out) {
+                    status[k] = Err(e);
                 }
             }
         }

@@ -34,6 +34,7 @@ use crate::fit::nelder_mead::nelder_mead;
 use crate::fit::params::{ParamSet, ParamSpec};
 use crate::fit::problem::{Evaluator, ResidualProblem};
 use crate::fit::profile::{profile_all, ProfileInterval, ProfileOptions};
+use crate::fit::rfactor::r_factor;
 use crate::stats::covariance::{covariance_without, Covariance};
 use crate::stats::derived::{delta_method, DerivedValue, ExtraInput};
 use crate::stats::goodness::{goodness, Goodness};
@@ -420,18 +421,19 @@ fn refine<P: ResidualProblem>(ev: &mut Evaluator<P>, mut lm: LmOutcome) -> LmOut
             break;
         };
         let p = lm.u.len();
-        let mut js = jac.clone();
+        // Least squares J D⁻¹ ds = −r, solved as R D⁻¹ ds = −Qᵀr (see `rfactor`).
+        let (mut js, qtr) = r_factor(&jac, Some(&lm.residuals));
+        drop(jac);
         let mut d = vec![1.0; p];
         for (j, dj) in d.iter_mut().enumerate() {
-            let n = jac.column(j).norm();
+            let n = js.column(j).norm();
             if n > 0.0 && n.is_finite() {
                 *dj = n;
             }
             js.column_mut(j).scale_mut(1.0 / *dj);
         }
-        let r = nalgebra::DVector::from_column_slice(&lm.residuals);
         let svd = js.svd(true, true);
-        let Ok(ds) = svd.solve(&(-r), 1e-12 * svd.singular_values.max()) else {
+        let Ok(ds) = svd.solve(&(-qtr), 1e-12 * svd.singular_values.max()) else {
             break;
         };
         let step: Vec<f64> = (0..p).map(|j| ds[j] / d[j]).collect();

@@ -13,6 +13,7 @@
 //! Hillstrom, ANL-80-74, 1980).
 
 use nalgebra::DMatrix;
+use std::sync::Arc;
 
 use crate::fit::problem::{Evaluator, ResidualProblem};
 
@@ -34,19 +35,38 @@ fn step(u: f64, c: f64) -> (f64, f64) {
 /// Jacobian at `u` (m × p), given the residuals `r0` at `u`. `None` when a column cannot be
 /// formed because neither side of the difference can be evaluated. The perturbed points go to
 /// the problem as one batch ([`Evaluator::eval_batch`]), which may solve them in parallel. A
-/// Jacobian asked for again at the same point with the same scheme is not formed again.
+/// Jacobian asked for again at the same point with the same scheme is not formed again (it is
+/// shared, not copied).
 pub fn jacobian<P: ResidualProblem>(
     ev: &mut Evaluator<P>,
     u: &[f64],
     r0: &[f64],
     scheme: Difference,
-) -> Option<DMatrix<f64>> {
+) -> Option<Arc<DMatrix<f64>>> {
     if let Some(j) = ev.cached_jacobian(u, scheme) {
         return Some(j);
     }
-    let jac = differences(ev, u, r0, scheme)?;
-    ev.remember_jacobian(u, scheme, &jac);
+    // The cached Jacobian belongs to another point: let it go before the new one is formed,
+    // so that at most one is held (n × p values each).
+    ev.forget_jacobian();
+    let jac = Arc::new(differences(ev, u, r0, scheme)?);
+    ev.remember_jacobian(u, scheme, jac.clone());
     Some(jac)
+}
+
+/// Residuals at `points` into one column-major buffer, `m` values per point.
+fn evaluate<P: ResidualProblem>(
+    ev: &mut Evaluator<P>,
+    u: &[f64],
+    points: &[Vec<f64>],
+    m: usize,
+) -> (Vec<f64>, Vec<bool>) {
+    let mut buf = vec![0.0; m * points.len()];
+    let ok = {
+        let mut outs: Vec<&mut [f64]> = buf.chunks_mut(m.max(1)).collect();
+        ev.eval_batch(u, points, &mut outs)
+    };
+    (buf, ok)
 }
 
 fn differences<P: ResidualProblem>(
@@ -57,7 +77,9 @@ fn differences<P: ResidualProblem>(
 ) -> Option<DMatrix<f64>> {
     let m = r0.len();
     let p = u.len();
-    let jac = DMatrix::<f64>::zeros(m, p);
+    if m == 0 {
+        return Some(DMatrix::zeros(0, p));
+    }
     let c = match scheme {
         Difference::Forward => f64::EPSILON.sqrt(),
         Difference::Central => f64::EPSILON.cbrt(),
@@ -68,73 +90,65 @@ fn differences<P: ResidualProblem>(
         v[j] = x;
         v
     };
-    // Points: u + h_j e_j for every j, then (central) u − h_j e_j.
+    // Points: u + h_j e_j for every j, then (central) u − h_j e_j. The residuals of point j
+    // are overwritten by column j of the Jacobian, so the matrix takes no extra memory.
     let mut points: Vec<Vec<f64>> = (0..p).map(|j| shifted(j, steps[j].0)).collect();
     if scheme == Difference::Central {
         points.extend((0..p).map(|j| shifted(j, u[j] - steps[j].1)));
     }
-    let mut outs = vec![vec![0.0; m]; points.len()];
-    let mut ok = ev.eval_batch(u, &points, &mut outs);
-    if scheme == Difference::Forward {
-        // A forward point that failed: try the backward side instead.
-        let failed: Vec<usize> = (0..p).filter(|&j| !ok[j]).collect();
-        if !failed.is_empty() {
+    let (mut buf, ok) = evaluate(ev, u, &points, m);
+    let (plus, minus) = buf.split_at_mut(p * m);
+    match scheme {
+        Difference::Central => {
+            for (j, &(_, h)) in steps.iter().enumerate() {
+                let col = &mut plus[j * m..(j + 1) * m];
+                let rm = &minus[j * m..(j + 1) * m];
+                match (ok[j], ok[p + j]) {
+                    (true, true) => col
+                        .iter_mut()
+                        .zip(rm)
+                        .for_each(|(c, m)| *c = (*c - m) / (2.0 * h)),
+                    (true, false) => col.iter_mut().zip(r0).for_each(|(c, r)| *c = (*c - r) / h),
+                    (false, true) => col
+                        .iter_mut()
+                        .zip(r0.iter().zip(rm))
+                        .for_each(|(c, (r, m))| *c = (r - m) / h),
+                    (false, false) => return None,
+                }
+            }
+        }
+        Difference::Forward => {
+            // A forward point that failed: try the backward side instead.
+            let failed: Vec<usize> = (0..p).filter(|&j| !ok[j]).collect();
             let back: Vec<Vec<f64>> = failed
                 .iter()
                 .map(|&j| shifted(j, u[j] - steps[j].1))
                 .collect();
-            let mut back_outs = vec![vec![0.0; m]; back.len()];
-            let back_ok = ev.eval_batch(u, &back, &mut back_outs);
-            outs.extend(back_outs);
-            ok.extend(back_ok);
-            points.extend(back);
-            let mut minus_index = vec![None; p];
-            for (k, &j) in failed.iter().enumerate() {
-                minus_index[j] = Some(p + k);
-            }
-            return fill(jac, r0, &steps, &outs, &ok, |j| (Some(j), minus_index[j]));
-        }
-        return fill(jac, r0, &steps, &outs, &ok, |j| (Some(j), None));
-    }
-    fill(jac, r0, &steps, &outs, &ok, |j| (Some(j), Some(p + j)))
-}
-
-/// Columns from the evaluated points: `index(j)` gives the positions of the plus and minus
-/// points of column j in `outs`.
-fn fill(
-    mut jac: DMatrix<f64>,
-    r0: &[f64],
-    steps: &[(f64, f64)],
-    outs: &[Vec<f64>],
-    ok: &[bool],
-    index: impl Fn(usize) -> (Option<usize>, Option<usize>),
-) -> Option<DMatrix<f64>> {
-    let m = r0.len();
-    for (j, &(_, h)) in steps.iter().enumerate() {
-        let (plus, minus) = index(j);
-        let plus = plus.filter(|&k| ok[k]).map(|k| &outs[k]);
-        let minus = minus.filter(|&k| ok[k]).map(|k| &outs[k]);
-        let mut col = jac.column_mut(j);
-        match (plus, minus) {
-            (Some(rp), Some(rm)) => {
-                for i in 0..m {
-                    col[i] = (rp[i] - rm[i]) / (2.0 * h);
+            let (back_buf, back_ok) = if back.is_empty() {
+                (Vec::new(), Vec::new())
+            } else {
+                evaluate(ev, u, &back, m)
+            };
+            for (j, &(_, h)) in steps.iter().enumerate() {
+                let col = &mut plus[j * m..(j + 1) * m];
+                if ok[j] {
+                    col.iter_mut().zip(r0).for_each(|(c, r)| *c = (*c - r) / h);
+                    continue;
                 }
-            }
-            (Some(rp), None) => {
-                for i in 0..m {
-                    col[i] = (rp[i] - r0[i]) / h;
+                let k = failed.iter().position(|&f| f == j)?;
+                if !back_ok[k] {
+                    return None;
                 }
+                let rm = &back_buf[k * m..(k + 1) * m];
+                col.iter_mut()
+                    .zip(r0.iter().zip(rm))
+                    .for_each(|(c, (r, m))| *c = (r - m) / h);
             }
-            (None, Some(rm)) => {
-                for i in 0..m {
-                    col[i] = (r0[i] - rm[i]) / h;
-                }
-            }
-            (None, None) => return None,
         }
     }
-    Some(jac)
+    buf.truncate(p * m);
+    buf.shrink_to_fit();
+    Some(DMatrix::from_vec(m, p, buf))
 }
 
 #[cfg(test)]

@@ -46,6 +46,7 @@ use serde::Serialize;
 
 use crate::fit::jacobian::{jacobian, Difference};
 use crate::fit::problem::{Evaluator, ResidualProblem};
+use crate::fit::rfactor::r_factor;
 
 /// Settings of the Levenberg–Marquardt search.
 #[derive(Debug, Clone, Serialize)]
@@ -220,12 +221,15 @@ pub fn levenberg_marquardt<P: ResidualProblem>(
             break StopReason::JacobianFailed;
         };
         out.iterations += 1;
-        let rv = DVector::from_column_slice(&r);
-        let grad = jac.transpose() * &rv;
+        // Everything below comes from the small factor R of J = QR and Qᵀr (see
+        // `rfactor`): J itself (n × p) is neither copied nor factorised whole.
+        let (tri, qtr) = r_factor(&jac, Some(&r));
+        drop(jac);
+        let grad = tri.transpose() * &qtr;
         let rnorm = f.sqrt();
         let mut gmax = 0.0_f64;
         for j in 0..p {
-            let cn = jac.column(j).norm();
+            let cn = tri.column(j).norm();
             if cn > 0.0 {
                 gmax = gmax.max(grad[j].abs() / (cn * rnorm));
             }
@@ -237,16 +241,16 @@ pub fn levenberg_marquardt<P: ResidualProblem>(
         if gmax <= opts.gtol {
             break StopReason::Gradient;
         }
-        let mut js = jac.clone();
+        let mut ts = tri.clone();
         for (j, d) in diag.iter().enumerate() {
-            js.column_mut(j).scale_mut(1.0 / d);
+            ts.column_mut(j).scale_mut(1.0 / d);
         }
-        let svd = js.svd(true, true);
+        let svd = ts.svd(true, true);
         let (Some(uu), Some(vt)) = (svd.u.as_ref(), svd.v_t.as_ref()) else {
             break StopReason::JacobianFailed;
         };
         let s = &svd.singular_values;
-        let utr = uu.transpose() * &rv;
+        let utr = uu.transpose() * &qtr;
         let n_res = r.len();
         if opts.offset_tol > 0.0 && n_res > p {
             let projected: f64 = utr
@@ -292,8 +296,9 @@ pub fn levenberg_marquardt<P: ResidualProblem>(
                 .map(|(a, d)| (a * d).powi(2))
                 .sum::<f64>()
                 .sqrt();
-            let jd = &jac * DVector::from_column_slice(&delta);
-            let pred = -(2.0 * rv.dot(&jd) + jd.norm_squared());
+            // ‖r + Jδ‖² − ‖r‖² = 2 (Qᵀr)ᵀ Rδ + ‖Rδ‖²
+            let jd = &tri * DVector::from_column_slice(&delta);
+            let pred = -(2.0 * qtr.dot(&jd) + jd.norm_squared());
             let trial: Vec<f64> = u.iter().zip(&delta).map(|(a, b)| a + b).collect();
             let small_step = dnorm <= opts.xtol * (dnorm_u + opts.xtol);
             let ok = ev.eval(&trial, &mut trial_r);

@@ -19,6 +19,7 @@ pub mod params;
 pub mod problem;
 pub mod profile;
 pub mod progress;
+pub mod rfactor;
 
 pub use bootstrap::{BootstrapOptions, BootstrapSummary};
 pub use compare::{rank_models, ModelSummary, RankedModel};

@@ -37,7 +37,7 @@ pub trait ResidualProblem: Clone + Send {
         &mut self,
         base: &[f64],
         points: &[Vec<f64>],
-        outs: &mut [Vec<f64>],
+        outs: &mut [&mut [f64]],
     ) -> Vec<Result<()>> {
         let _ = base;
         points
@@ -204,7 +204,7 @@ impl<P: ResidualProblem> ResidualProblem for ShiftedProblem<P> {
         &mut self,
         base: &[f64],
         points: &[Vec<f64>],
-        outs: &mut [Vec<f64>],
+        outs: &mut [&mut [f64]],
     ) -> Vec<Result<()>> {
         let status = self.inner.residuals_batch(base, points, outs);
         for (out, st) in outs.iter_mut().zip(&status) {
@@ -231,7 +231,7 @@ pub struct Evaluator<P> {
     jacobian_cache: Option<(
         Vec<f64>,
         crate::fit::jacobian::Difference,
-        nalgebra::DMatrix<f64>,
+        std::sync::Arc<nalgebra::DMatrix<f64>>,
     )>,
 }
 
@@ -323,7 +323,7 @@ impl<P: ResidualProblem> Evaluator<P> {
         &mut self,
         base: &[f64],
         us: &[Vec<f64>],
-        outs: &mut [Vec<f64>],
+        outs: &mut [&mut [f64]],
     ) -> Vec<bool> {
         self.evaluations += us.len();
         let mut full_base = self.full.clone();
@@ -336,8 +336,9 @@ impl<P: ResidualProblem> Evaluator<P> {
                 f
             })
             .collect();
-        for o in outs.iter_mut() {
-            o.resize(self.n, 0.0);
+        if outs.len() != us.len() || outs.iter().any(|o| o.len() != self.n) {
+            self.failures += us.len();
+            return vec![false; us.len()];
         }
         let status = if full_base.iter().all(|v| v.is_finite()) {
             self.problem.residuals_batch(&full_base, &points, outs)
@@ -364,7 +365,7 @@ impl<P: ResidualProblem> Evaluator<P> {
         &self,
         u: &[f64],
         scheme: crate::fit::jacobian::Difference,
-    ) -> Option<nalgebra::DMatrix<f64>> {
+    ) -> Option<std::sync::Arc<nalgebra::DMatrix<f64>>> {
         match &self.jacobian_cache {
             Some((at, s, j)) if *s == scheme && at.as_slice() == u => Some(j.clone()),
             _ => None,
@@ -376,9 +377,14 @@ impl<P: ResidualProblem> Evaluator<P> {
         &mut self,
         u: &[f64],
         scheme: crate::fit::jacobian::Difference,
-        jac: &nalgebra::DMatrix<f64>,
+        jac: std::sync::Arc<nalgebra::DMatrix<f64>>,
     ) {
-        self.jacobian_cache = Some((u.to_vec(), scheme, jac.clone()));
+        self.jacobian_cache = Some((u.to_vec(), scheme, jac));
+    }
+
+    /// Drop the cached Jacobian.
+    pub(crate) fn forget_jacobian(&mut self) {
+        self.jacobian_cache = None;
     }
 
     /// Residual vector at `u`, or `None` (see [`Evaluator::eval`]).

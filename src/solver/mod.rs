@@ -314,6 +314,12 @@ impl Solver {
         &self.schedule
     }
 
+    /// The solution of the last solve (empty before the first; unspecified after a failed
+    /// solve).
+    pub fn solution(&self) -> &Solution {
+        &self.solution
+    }
+
     /// The options.
     pub fn options(&self) -> &SolverOptions {
         &self.options

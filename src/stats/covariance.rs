@@ -24,6 +24,7 @@
 //! References: G. H. Golub & C. F. Van Loan, *Matrix Computations*, 4th ed. (2013), §5.5;
 //! D. M. Bates & D. G. Watts, *Nonlinear Regression Analysis and Its Applications* (1988), §2.3.
 
+use crate::fit::rfactor::r_factor;
 use nalgebra::DMatrix;
 use serde::Serialize;
 
@@ -73,9 +74,11 @@ pub fn covariance_without(
 ) -> Covariance {
     let p = jac.ncols();
     let mut colnorm = vec![1.0; p];
-    let mut js = jac.clone();
+    // The SVD of R (J = QR) has the singular values and right singular vectors of J, and R
+    // is p × p however many rows J has (see `crate::fit::rfactor`).
+    let (mut js, _) = r_factor(jac, None);
     for (j, c) in colnorm.iter_mut().enumerate() {
-        let nj = jac.column(j).norm();
+        let nj = js.column(j).norm();
         if nj > 0.0 && nj.is_finite() {
             *c = nj;
         }

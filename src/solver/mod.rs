@@ -238,7 +238,15 @@ pub struct Solver {
     op: Operator,
     work: Work,
     schedule: Vec<f64>,
+    /// The stops, unless they are the requested times themselves (`identity`).
     stops: Vec<f64>,
+    /// Whether the stops are exactly the requested times (strictly increasing, no table rows
+    /// between them): then `stops`, `order`, `is_output` and `is_break` stay empty and the
+    /// values are recorded straight into the solution, so a solver costs 8 bytes per
+    /// requested time and observable instead of about 34.
+    identity: bool,
+    /// Number of stops.
+    n_stops: usize,
     order: Vec<usize>,
     is_output: Vec<bool>,
     /// Whether each stop is a row of a boundary time table (a step must end there).
@@ -287,6 +295,8 @@ impl Solver {
             work: Work::default(),
             schedule: Vec::new(),
             stops: Vec::new(),
+            identity: false,
+            n_stops: 0,
             order: Vec::new(),
             is_output: Vec::new(),
             is_break: Vec::new(),
@@ -366,8 +376,6 @@ impl Solver {
             }
         }
         // Stops: output times and table rows, sorted and unique.
-        self.stops.clear();
-        self.stops.extend_from_slice(&request.times);
         let t_end = request.times.iter().cloned().fold(0.0, f64::max);
         // Table rows, where the forcing has a kink: every step must end on one.
         self.at_stops.clear();
@@ -381,24 +389,36 @@ impl Solver {
                 );
             }
         }
-        self.stops.extend_from_slice(&self.at_stops);
-        self.stops.sort_by(f64::total_cmp);
-        self.stops.dedup();
-        self.is_break.clear();
-        self.is_break.resize(self.stops.len(), false);
-        for &b in &self.at_stops {
-            let k = self.stops.partition_point(|&s| s < b);
-            self.is_break[k] = true;
-        }
-        self.order.clear();
-        for &t in &request.times {
-            // Exact match exists by construction.
-            self.order.push(self.stops.partition_point(|&s| s < t));
-        }
-        self.is_output.clear();
-        self.is_output.resize(self.stops.len(), false);
-        for &k in &self.order {
-            self.is_output[k] = true;
+        self.identity = self.at_stops.is_empty() && request.times.windows(2).all(|w| w[0] < w[1]);
+        if self.identity {
+            self.stops = Vec::new();
+            self.is_break = Vec::new();
+            self.order = Vec::new();
+            self.is_output = Vec::new();
+            self.n_stops = request.times.len();
+        } else {
+            self.stops.clear();
+            self.stops.extend_from_slice(&request.times);
+            self.stops.extend_from_slice(&self.at_stops);
+            self.stops.sort_by(f64::total_cmp);
+            self.stops.dedup();
+            self.is_break.clear();
+            self.is_break.resize(self.stops.len(), false);
+            for &b in &self.at_stops {
+                let k = self.stops.partition_point(|&s| s < b);
+                self.is_break[k] = true;
+            }
+            self.order.clear();
+            for &t in &request.times {
+                // Exact match exists by construction.
+                self.order.push(self.stops.partition_point(|&s| s < t));
+            }
+            self.is_output.clear();
+            self.is_output.resize(self.stops.len(), false);
+            for &k in &self.order {
+                self.is_output[k] = true;
+            }
+            self.n_stops = self.stops.len();
         }
 
         self.stencils.clear();
@@ -480,7 +500,7 @@ impl Solver {
         amount: f64,
         interpolated: bool,
     ) {
-        let ns = self.stops.len();
+        let ns = self.n_stops;
         let u = if interpolated {
             &self.work.u_mid
         } else {
@@ -514,9 +534,41 @@ impl Solver {
     }
 
     fn run(&mut self, model: &Model, request: &Request, plan: StepPlan<'_>) -> Result<()> {
+        let own = std::mem::take(&mut self.stops);
+        let stops = if self.identity {
+            &request.times[..]
+        } else {
+            &own[..]
+        };
+        if self.identity {
+            // The values are recorded in request order: reuse the solution's buffer.
+            self.at_stops = std::mem::take(&mut self.solution.values);
+        }
+        let out = self.run_on(model, request, plan, stops);
+        self.stops = own;
+        out
+    }
+
+    /// Whether stop `k` is a requested time.
+    fn is_output(&self, k: usize) -> bool {
+        self.identity || self.is_output[k]
+    }
+
+    /// Whether stop `k` is a row of a boundary time table.
+    fn is_break(&self, k: usize) -> bool {
+        !self.identity && self.is_break[k]
+    }
+
+    fn run_on(
+        &mut self,
+        model: &Model,
+        request: &Request,
+        plan: StepPlan<'_>,
+        stops: &[f64],
+    ) -> Result<()> {
         let n = self.grid.len();
         let nobs = request.observables.len();
-        let ns = self.stops.len();
+        let ns = stops.len();
         self.at_stops.clear();
         self.at_stops.resize(nobs * ns, 0.0);
         self.schedule.clear();
@@ -591,11 +643,11 @@ impl Solver {
         let mut flux_n = self.op.end_fluxes(model, &self.work.u, 0.0);
         let mut cum = (0.0, 0.0);
         let mut k = 0;
-        while k < ns && self.stops[k] == 0.0 {
+        while k < ns && stops[k] == 0.0 {
             self.record(model, request, k, 0.0, amount0, amount_inf, cum);
             k += 1;
         }
-        let t_end = self.stops.last().copied().unwrap_or(0.0);
+        let t_end = stops.last().copied().unwrap_or(0.0);
         let tol = self.options.tolerance;
         let mut h = match plan {
             StepPlan::Fixed(m) => {
@@ -608,7 +660,7 @@ impl Solver {
                 t_end / m as f64
             }
             _ => {
-                let first = self.stops.get(k).copied().unwrap_or(t_end);
+                let first = stops.get(k).copied().unwrap_or(t_end);
                 1e-4 * first
             }
         };
@@ -617,7 +669,7 @@ impl Solver {
         let mut last_c = f64::NAN;
 
         while k < ns {
-            let stop = self.stops[k];
+            let stop = stops[k];
             // Choose the step.
             let (t_new, clipped) = match plan {
                 StepPlan::Replay(times) => {
@@ -627,25 +679,25 @@ impl Solver {
                         ));
                     };
                     // Output times inside a replayed step are interpolated; table rows are not.
-                    let passed = self.stops[k..].partition_point(|&s| s < tn);
-                    if let Some(b) = (k..k + passed).find(|&j| self.is_break[j]) {
+                    let passed = stops[k..].partition_point(|&s| s < tn);
+                    if let Some(b) = (k..k + passed).find(|&j| self.is_break(j)) {
                         return Err(Error::Internal(format!(
                             "replayed schedule skips table row {} s",
-                            self.stops[b]
+                            stops[b]
                         )));
                     }
                     (tn, false)
                 }
-                StepPlan::Adaptive if k + 1 < ns && self.stops[k + 1] <= t + h => {
+                StepPlan::Adaptive if k + 1 < ns && stops[k + 1] <= t + h => {
                     // Two or more stops within the step the error control allows: end it on
                     // the last of them (or on the first table row), and interpolate the output
                     // times passed on the way (see `interpolate_outputs`).
-                    let within = self.stops[k..].partition_point(|&s| s <= t + h);
+                    let within = stops[k..].partition_point(|&s| s <= t + h);
                     let mut last = k + within - 1;
-                    if let Some(b) = (k..=last).find(|&j| self.is_break[j]) {
+                    if let Some(b) = (k..=last).find(|&j| self.is_break(j)) {
                         last = b;
                     }
-                    (self.stops[last], true)
+                    (stops[last], true)
                 }
                 _ => {
                     let remaining = stop - t;
@@ -768,7 +820,7 @@ impl Solver {
                 self.work.u.iter_mut().for_each(|x| *x += shift);
             }
             // Output times passed inside the step (dense outputs, or a replayed step).
-            let passed = self.stops[k..].partition_point(|&s| s < t_new);
+            let passed = stops[k..].partition_point(|&s| s < t_new);
             if passed > 0 {
                 let span = Span {
                     t0: t,
@@ -778,7 +830,15 @@ impl Solver {
                     flux0: flux_start,
                     flux1: flux_1,
                 };
-                self.interpolate_outputs(model, request, k..k + passed, &span, amount0, amount_inf);
+                self.interpolate_outputs(
+                    model,
+                    request,
+                    stops,
+                    k..k + passed,
+                    &span,
+                    amount0,
+                    amount_inf,
+                );
                 k += passed;
             }
             std::mem::swap(&mut self.work.f_n, &mut self.work.f_1);
@@ -810,8 +870,8 @@ impl Solver {
                 StepPlan::Fixed(m) => h = t_end / m as f64,
                 StepPlan::Replay(_) => {}
             }
-            if k < ns && self.stops[k] == t {
-                if self.is_output[k] {
+            if k < ns && stops[k] == t {
+                if self.is_output(k) {
                     self.record(model, request, k, t, amount0, amount_inf, cum);
                 }
                 k += 1;
@@ -821,11 +881,15 @@ impl Solver {
         // Scatter to request order.
         let nt = request.times.len();
         self.solution.n_times = nt;
-        self.solution.values.clear();
-        self.solution.values.resize(nobs * nt, 0.0);
-        for o in 0..nobs {
-            for (kk, &sk) in self.order.iter().enumerate() {
-                self.solution.values[o * nt + kk] = self.at_stops[o * ns + sk];
+        if self.identity {
+            self.solution.values = std::mem::take(&mut self.at_stops);
+        } else {
+            self.solution.values.clear();
+            self.solution.values.resize(nobs * nt, 0.0);
+            for o in 0..nobs {
+                for (kk, &sk) in self.order.iter().enumerate() {
+                    self.solution.values[o * nt + kk] = self.at_stops[o * ns + sk];
+                }
             }
         }
         self.solution.stats = stats;
@@ -854,12 +918,13 @@ impl Solver {
         &mut self,
         model: &Model,
         request: &Request,
+        stops: &[f64],
         ks: std::ops::Range<usize>,
         span: &Span,
         amount0: f64,
         amount_inf: f64,
     ) {
-        if !ks.clone().any(|j| self.is_output[j]) {
+        if !ks.clone().any(|j| self.is_output(j)) {
             return;
         }
         let mf = model.geometry.shape.measure_factor();
@@ -876,10 +941,10 @@ impl Solver {
         let (a0, a1, da0, da1) = (dot(&w.u_n), dot(&w.u), dot(&w.f_n), dot(&w.f_1));
         let h = span.t1 - span.t0;
         for j in ks {
-            if !self.is_output[j] {
+            if !self.is_output(j) {
                 continue;
             }
-            let s = self.stops[j];
+            let s = stops[j];
             let th = (s - span.t0) / h;
             let (t2, t3) = (th * th, th * th * th);
             let (h00, h10, h01, h11) = (

@@ -36,9 +36,9 @@ struct RunState {
     /// Parameters of the last error-controlled solve, and its step sequence.
     base: Option<(Vec<f64>, Vec<f64>)>,
     last_model: Option<Model>,
-    /// Exposure start (s) of the last solve (0 without `exposure_start`).
+    /// Exposure start (s) of the last solve (0 without `exposure_start`). With
+    /// `last_model`, set only after a successful solve, whose solution `solver` holds.
     last_start: Option<f64>,
-    last_solution: Solution,
     prediction: Vec<f64>,
     /// Spare solvers for the perturbed points of a batch (finite-difference columns), kept
     /// between batches so that no work space is allocated again.
@@ -72,7 +72,6 @@ impl ExperimentProblem {
                 base: None,
                 last_model: None,
                 last_start: None,
-                last_solution: Solution::default(),
                 prediction: Vec::with_capacity(d.len()),
                 spares: Vec::new(),
             });
@@ -184,31 +183,28 @@ fn solve_run(dataset: &Dataset, run: &mut RunState, typical: &[f64], params: &[f
     let model = dataset.model_for(params)?;
     let start = dataset.exposure_start(params);
     if run.last_model.as_ref() != Some(&model) || run.last_start != Some(start) {
+        // Forget the last solve first: the solver's solution is overwritten below, and a
+        // failed solve must not leave the old model paired with it.
+        run.last_model = None;
+        run.last_start = None;
         // The data times on the model's clock (shifted by the exposure start, if any).
         let request = dataset.request_for(params);
         let replayed = match replay_steps(dataset, run, typical, params) {
-            Some(steps) => match run
+            Some(steps) => run
                 .solver
                 .solve_with(&model, &request, StepPlan::Replay(&steps))
-            {
-                Ok(sol) => {
-                    run.last_solution.clone_from(sol);
-                    true
-                }
-                Err(_) => false,
-            },
+                .is_ok(),
             None => false,
         };
         if !replayed {
-            let sol = run.solver.solve(&model, &request)?;
-            run.last_solution.clone_from(sol);
+            run.solver.solve(&model, &request)?;
             let schedule = run.solver.schedule().to_vec();
             run.base = Some((params.to_vec(), schedule));
         }
         run.last_model = Some(model);
         run.last_start = Some(start);
     }
-    dataset.predict_into(params, &run.last_solution, &mut run.prediction)
+    dataset.predict_into(params, run.solver.solution(), &mut run.prediction)
 }
 
 /// One perturbed point of one run in a batch: solved on a spare solver, replaying the run's
@@ -325,10 +321,11 @@ impl ResidualProblem for ExperimentProblem {
             };
             let base_start = run.last_start;
             let (scale, range) = (self.scales[d], self.offsets[d]..self.offsets[d + 1]);
-            let write = |point: &[f64], sol: &Solution, pred: &mut Vec<f64>, out: &mut [f64]| {
-                dataset.predict_into(point, sol, pred)?;
-                for (i, (o, f)) in out.iter_mut().zip(pred.iter()).enumerate() {
-                    *o = dataset.residual(i, *f, dataset.sigma[i] * scale);
+            // Predictions into the residual slice, then residuals in place.
+            let write = |point: &[f64], sol: &Solution, out: &mut [f64]| {
+                dataset.predict_to(point, sol, out)?;
+                for (i, o) in out.iter_mut().enumerate() {
+                    *o = dataset.residual(i, *o, dataset.sigma[i] * scale);
                 }
                 Ok(())
             };
@@ -365,8 +362,8 @@ impl ResidualProblem for ExperimentProblem {
             let pool = std::sync::Mutex::new(std::mem::take(&mut run.spares));
             let main_solver = &run.solver;
             tasks.par_iter_mut().for_each_init(
-                || (Lent::take(&pool, main_solver), Vec::new()),
-                |(lent, pred), task| {
+                || Lent::take(&pool, main_solver),
+                |lent, task| {
                     let solver = lent.solver();
                     let plan = match &task.schedule {
                         Some(s) => StepPlan::Replay(s),
@@ -381,7 +378,7 @@ impl ResidualProblem for ExperimentProblem {
                     };
                     task.result = solved.and_then(|()| {
                         let sol = solver.solution();
-                        write(task.point, sol, pred, task.out)
+                        write(task.point, sol, task.out)
                     });
                 },
             );
@@ -391,9 +388,8 @@ impl ResidualProblem for ExperimentProblem {
                     status[task.index] = Err(e);
                 }
             }
-            let mut pred = Vec::new();
             for (k, out) in unchanged {
-                if let Err(e) = write(&points[k], &run.last_solution, &mut pred, out) {
+                if let Err(e) = write(&points[k], run.solver.solution(), out) {
                     status[k] = Err(e);
                 }
             }

@@ -375,12 +375,26 @@ impl Dataset {
         solution: &Solution,
         out: &mut Vec<f64>,
     ) -> Result<()> {
+        out.clear();
+        out.resize(self.map.len(), 0.0);
+        self.predict_to(params, solution, out)
+    }
+
+    /// [`Dataset::predict_into`] into a slice with one entry per observed value.
+    pub fn predict_to(&self, params: &[f64], solution: &Solution, out: &mut [f64]) -> Result<()> {
         self.check_len(params)?;
+        if out.len() != self.map.len() {
+            return Err(Error::Internal(format!(
+                "{} predictions asked for dataset '{}' of {} values",
+                out.len(),
+                self.name,
+                self.map.len()
+            )));
+        }
         let scale = self.scale.map_or(1.0, |n| n.get(params));
         let offset = self.offset.map_or(0.0, |n| n.get(params));
-        out.clear();
         let n_times = self.request.times.len();
-        for &(o, k) in &self.map {
+        for (&(o, k), f) in self.map.iter().zip(out.iter_mut()) {
             let s = solution.series(o);
             if s.len() != n_times {
                 return Err(Error::Internal(format!(
@@ -392,7 +406,7 @@ impl Dataset {
                 .get(k)
                 .copied()
                 .ok_or_else(|| Error::Internal(format!("time index {k} outside the solution")))?;
-            out.push(offset + scale * v);
+            *f = offset + scale * v;
         }
         Ok(())
     }
@@ -632,6 +646,33 @@ impl Dataset {
         let mut out = Vec::with_capacity(self.map.len());
         self.predict_into(params, solution, &mut out)?;
         Ok(out)
+    }
+
+    /// The same run asked for other outputs (`request` on the data's clock, `map` into its
+    /// solution), with no observations: for model curves on a grid of its own. The data
+    /// vectors are not copied.
+    pub fn resampled(&self, request: Request, map: Vec<(usize, usize)>) -> Dataset {
+        Dataset {
+            name: self.name.clone(),
+            file: self.file.clone(),
+            file_as_written: self.file_as_written.clone(),
+            key: self.key.clone(),
+            request,
+            observed: Vec::new(),
+            sigma: Vec::new(),
+            weighting: self.weighting,
+            lines: Vec::new(),
+            positions: Vec::new(),
+            map,
+            value_unit: self.value_unit.clone(),
+            warnings: Vec::new(),
+            detection_limit: None,
+            template: self.template.clone(),
+            scale: self.scale,
+            offset: self.offset,
+            exposure_start: self.exposure_start,
+            n_params: self.n_params,
+        }
     }
 }
 
@@ -2767,7 +2808,7 @@ fn dataset(
         }
         None => None,
     };
-    let (sigma, weighting) = match (d.weighting, sigma_col, constant_sigma, d.relative_sigma) {
+    let (mut sigma, weighting) = match (d.weighting, sigma_col, constant_sigma, d.relative_sigma) {
         (_, Some(_), Some(_), _) => {
             return Err(b.err(
                 InputKind::BadValue,
@@ -2844,6 +2885,16 @@ fn dataset(
         Some(s) => Some(b.num(s, Kind::Measured, Check::Any, &k("offset"))?),
         None => None,
     };
+    // The loader grows these as it reads; give back the spare capacity (up to half of
+    // each at 10⁶ points).
+    let mut request = request;
+    request.times.shrink_to_fit();
+    for v in [&mut observed, &mut sigma] {
+        v.shrink_to_fit();
+    }
+    lines.shrink_to_fit();
+    positions.shrink_to_fit();
+    map.shrink_to_fit();
     Ok(Dataset {
         name: d.name.clone(),
         file: path,

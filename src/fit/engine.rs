@@ -491,15 +491,13 @@ pub fn fit<P: ResidualProblem>(
     let found = search(&mut ev, opts)?;
     let lm = found.lm;
     let u = lm.u.clone();
-    let r = lm.residuals.clone();
+    let r = lm.residuals;
     // Censored readings under the model are not observations: n counts the others.
-    let inactive = {
-        let mut prob = problem.clone();
-        prob.inactive(&ev.external(&u))
-            .ok()
-            .filter(|m| m.len() == n)
-            .unwrap_or_else(|| vec![false; n])
-    };
+    let inactive = ev
+        .inactive(&u)
+        .ok()
+        .filter(|m| m.len() == n)
+        .unwrap_or_else(|| vec![false; n]);
     let n_active = inactive.iter().filter(|x| !**x).count();
     if n_active <= p {
         return Err(Error::input(
@@ -514,12 +512,23 @@ pub fn fit<P: ResidualProblem>(
     }
     let dof = n_active - p;
     let tcrit = t_critical(opts.level, dof as f64)?;
-    let active = |range: std::ops::Range<usize>, v: &[f64]| -> Vec<f64> {
-        range
-            .filter(|&i| !inactive[i])
-            .filter_map(|i| v.get(i).copied())
-            .collect()
-    };
+    // The entries of `v` in `range` that are observations (borrowed when all are).
+    fn observed_part<'a>(
+        inactive: &[bool],
+        range: std::ops::Range<usize>,
+        v: &'a [f64],
+    ) -> std::borrow::Cow<'a, [f64]> {
+        match v.get(range.clone()) {
+            Some(all) if !inactive.iter().any(|x| *x) => std::borrow::Cow::Borrowed(all),
+            _ => std::borrow::Cow::Owned(
+                range
+                    .filter(|&i| !inactive[i])
+                    .filter_map(|i| v.get(i).copied())
+                    .collect(),
+            ),
+        }
+    }
+    let active = |range, v| observed_part(&inactive, range, v);
     let jac = jacobian(&mut ev, &u, &r, Difference::Central)
         .ok_or_else(|| Error::Fit("the Jacobian at the optimum could not be formed".into()))?;
     let rss = lm.rss;
@@ -533,16 +542,21 @@ pub fn fit<P: ResidualProblem>(
     let full = ev.external(&u);
     let insensitive = insensitive_parameters(&jac, scale, &dx, &set, &full);
     let cov = covariance_without(&jac, scale, &dx, opts.rank_tol, &insensitive);
+    // The Jacobian (n × p) is not needed any more.
+    drop(jac);
+    ev.forget_jacobian();
     let free_estimates: Vec<f64> = set.free_indices().iter().map(|&i| full[i]).collect();
-    let obs = problem
-        .observations()
-        .map(|(y, s)| (active(0..n, &y), active(0..n, &s)));
+    let obs = problem.observations();
+    let obs = obs
+        .as_ref()
+        .map(|(y, s)| (active(0..n, y), active(0..n, s)));
     let good = goodness(
         &active(0..n, &r),
         p,
-        obs.as_ref().map(|(y, s)| (y.as_slice(), s.as_slice())),
+        obs.as_ref().map(|(y, s)| (y.as_ref(), s.as_ref())),
         absolute,
     )?;
+    drop(obs);
     let mut checks = Vec::new();
     for d in problem.datasets() {
         if d.range.end <= r.len() {

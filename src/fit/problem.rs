@@ -387,6 +387,12 @@ impl<P: ResidualProblem> Evaluator<P> {
         self.jacobian_cache = None;
     }
 
+    /// Which residuals at `u` are not observations (see [`ResidualProblem::inactive`]).
+    pub fn inactive(&mut self, u: &[f64]) -> Result<Vec<bool>> {
+        self.params.fill_external(u, &mut self.full);
+        self.problem.inactive(&self.full)
+    }
+
     /// Residual vector at `u`, or `None` (see [`Evaluator::eval`]).
     pub fn residuals(&mut self, u: &[f64]) -> Option<Vec<f64>> {
         let mut out = vec![0.0; self.n];

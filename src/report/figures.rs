@@ -146,14 +146,15 @@ pub fn figures(analysis: &Analysis) -> Result<Vec<NamedFigure>> {
             let x_max = ds.positions.iter().flatten().cloned().fold(0.0, f64::max);
             let (xs, xu) = length_axis(x_max);
             let dense_x: Vec<f64> = (0..=120).map(|k| x_max * k as f64 / 120.0).collect();
-            let mut dense = ds.clone();
-            dense.request = Request {
-                times: ds.request.times.clone(),
-                observables: dense_x.iter().map(|&x| Observable::ValueAt(x)).collect(),
-            };
-            dense.map = (0..ds.request.times.len())
-                .flat_map(|k| (0..dense_x.len()).map(move |o| (o, k)))
-                .collect();
+            let dense = ds.resampled(
+                Request {
+                    times: ds.request.times.clone(),
+                    observables: dense_x.iter().map(|&x| Observable::ValueAt(x)).collect(),
+                },
+                (0..ds.request.times.len())
+                    .flat_map(|k| (0..dense_x.len()).map(move |o| (o, k)))
+                    .collect(),
+            );
             let sol = solver.solve(&model, &dense.request_for(params))?;
             let curve = dense.predict(params, sol)?;
             let mut fig = Figure::new(
@@ -222,15 +223,16 @@ pub fn figures(analysis: &Analysis) -> Result<Vec<NamedFigure>> {
         } else {
             // Time series and sensors: one series per observable against time.
             let dense_t: Vec<f64> = (0..=200).map(|k| t_max * k as f64 / 200.0).collect();
-            let mut dense = ds.clone();
-            dense.request = Request {
-                times: dense_t.clone(),
-                observables: ds.request.observables.clone(),
-            };
             let no = ds.request.observables.len();
-            dense.map = (0..no)
-                .flat_map(|o| (0..dense_t.len()).map(move |k| (o, k)))
-                .collect();
+            let dense = ds.resampled(
+                Request {
+                    times: dense_t.clone(),
+                    observables: ds.request.observables.clone(),
+                },
+                (0..no)
+                    .flat_map(|o| (0..dense_t.len()).map(move |k| (o, k)))
+                    .collect(),
+            );
             let sol = solver.solve(&model, &dense.request_for(params))?;
             let curve = dense.predict(params, sol)?;
             let mut fig = Figure::new(

@@ -52,7 +52,7 @@ pub fn simulate(
         let solution = solver.solve(&model, &d.request_for(params))?;
         let predicted = d.predict(params, solution)?;
         for (i, v) in predicted.iter().enumerate() {
-            let (_, k) = d.map[i];
+            let (_, k) = d.output_of(i);
             let e = if noise > 0.0 {
                 normal.sample(&mut rng)
             } else {

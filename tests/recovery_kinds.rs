@@ -43,9 +43,8 @@ fn run(case: &Case) -> fickfit::analysis::Analysis {
     for d in 0..truth.datasets.len() {
         let ds = &truth.datasets[d];
         let cols: Vec<String> = ds
-            .map
-            .iter()
-            .map(|&(o, _)| case.columns[o.min(case.columns.len() - 1)].to_string())
+            .outputs()
+            .map(|(o, _)| case.columns[o.min(case.columns.len() - 1)].to_string())
             .collect();
         let text = rewrite_data_file(&truth, d, &cols, &p, 0.0, 1).unwrap();
         std::fs::write(&ds.file, text).unwrap();

@@ -254,7 +254,7 @@ fn time_lags(analysis: &Analysis, name: &str, dataset: usize) -> Vec<Derived> {
                 .as_ref()
                 .is_some_and(|dl| dl.is_censored(*i))
         })
-        .map(|(_, (&(_, k), &y))| (d.request.times[k], y))
+        .map(|(_, (&(_, k), &y))| (d.request.times[k as usize], y))
         .collect();
     rows.sort_by(|a, b| a.0.total_cmp(&b.0));
     let t: Vec<f64> = rows.iter().map(|r| r.0).collect();

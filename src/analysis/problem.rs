@@ -39,7 +39,6 @@ struct RunState {
     /// Exposure start (s) of the last solve (0 without `exposure_start`). With
     /// `last_model`, set only after a successful solve, whose solution `solver` holds.
     last_start: Option<f64>,
-    prediction: Vec<f64>,
     /// Spare solvers for the perturbed points of a batch (finite-difference columns), kept
     /// between batches so that no work space is allocated again.
     spares: Vec<Solver>,
@@ -72,7 +71,6 @@ impl ExperimentProblem {
                 base: None,
                 last_model: None,
                 last_start: None,
-                prediction: Vec::with_capacity(d.len()),
                 spares: Vec::new(),
             });
         }
@@ -117,7 +115,12 @@ impl ExperimentProblem {
     /// Predictions of every dataset at `params` (SI, data order), by solving each run.
     pub fn predictions(&mut self, params: &[f64]) -> Result<Vec<Vec<f64>>> {
         self.solve_all(params)?;
-        Ok(self.runs.iter().map(|r| r.prediction.clone()).collect())
+        self.experiment
+            .datasets
+            .iter()
+            .zip(&self.runs)
+            .map(|(d, r)| d.predict(params, r.solver.solution()))
+            .collect()
     }
 
     /// Solve every run at `params`, the runs in parallel.
@@ -135,14 +138,18 @@ impl ExperimentProblem {
             .map(|_| ())
     }
 
-    fn write_residuals(&self, d: usize, prediction: &[f64], out: &mut [f64]) {
+    /// Residuals of dataset `d` at `params` from its run's last solve, into its part of
+    /// `out`: predictions first, then (y − f)/(σ s) in place, one-sided for a reading
+    /// censored at a detection limit.
+    fn write_residuals(&self, d: usize, params: &[f64], out: &mut [f64]) -> Result<()> {
         let dataset = &self.experiment.datasets[d];
         let s = self.scales[d];
-        let base = self.offsets[d];
-        for i in 0..dataset.len() {
-            // (y − f)/(σ s), one-sided for a reading censored at a detection limit.
-            out[base + i] = dataset.residual(i, prediction[i], dataset.sigma[i] * s);
+        let part = &mut out[self.offsets[d]..self.offsets[d + 1]];
+        dataset.predict_to(params, self.runs[d].solver.solution(), part)?;
+        for (i, o) in part.iter_mut().enumerate() {
+            *o = dataset.residual(i, *o, dataset.sigma[i] * s);
         }
+        Ok(())
     }
 }
 
@@ -177,7 +184,7 @@ fn replay_steps(
 }
 
 /// Solve one run at `params` (unless its model and exposure start are unchanged) and leave its
-/// prediction in `run.prediction`. A point near the run's last error-controlled solve replays
+/// solution in `run.solver`. A point near the run's last error-controlled solve replays
 /// that solve's steps; any other point is solved with error control and becomes the new base.
 fn solve_run(dataset: &Dataset, run: &mut RunState, typical: &[f64], params: &[f64]) -> Result<()> {
     let model = dataset.model_for(params)?;
@@ -204,7 +211,7 @@ fn solve_run(dataset: &Dataset, run: &mut RunState, typical: &[f64], params: &[f
         run.last_model = Some(model);
         run.last_start = Some(start);
     }
-    dataset.predict_into(params, run.solver.solution(), &mut run.prediction)
+    Ok(())
 }
 
 /// One perturbed point of one run in a batch: solved on a spare solver, replaying the run's
@@ -266,7 +273,7 @@ impl ResidualProblem for ExperimentProblem {
             let Some(dl) = &dataset.detection_limit else {
                 continue;
             };
-            let pred = &self.runs[d].prediction;
+            let pred = dataset.predict(params, self.runs[d].solver.solution())?;
             for i in 0..dataset.len() {
                 // The residual of a censored reading is zero while the model is at or below it.
                 out[self.offsets[d] + i] = dl.is_censored(i) && pred[i] <= dataset.observed[i];
@@ -284,11 +291,16 @@ impl ResidualProblem for ExperimentProblem {
     }
 
     fn residuals(&mut self, params: &[f64], out: &mut [f64]) -> Result<()> {
+        if out.len() != self.n {
+            return Err(Error::Internal(format!(
+                "{} residuals asked for {} readings",
+                out.len(),
+                self.n
+            )));
+        }
         self.solve_all(params)?;
         for d in 0..self.runs.len() {
-            let pred = std::mem::take(&mut self.runs[d].prediction);
-            self.write_residuals(d, &pred, out);
-            self.runs[d].prediction = pred;
+            self.write_residuals(d, params, out)?;
         }
         Ok(())
     }

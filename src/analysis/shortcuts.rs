@@ -153,7 +153,7 @@ fn points(d: &Dataset) -> Vec<(usize, f64, f64)> {
                 .as_ref()
                 .is_some_and(|dl| dl.is_censored(*i))
         })
-        .map(|(_, (&(o, k), &y))| (o, d.request.times[k], y))
+        .map(|(_, (&(o, k), &y))| (o as usize, d.request.times[k as usize], y))
         .collect()
 }
 
@@ -491,7 +491,7 @@ fn angstrom_rows(
     }
     // Values per (observable, time); only times every sensor has are used.
     let mut grid = vec![vec![f64::NAN; times.len()]; n_obs];
-    for (&(o, k), &y) in d.map.iter().zip(&d.observed) {
+    for ((o, k), &y) in d.outputs().zip(&d.observed) {
         grid[o][k] = y;
     }
     let period = 2.0 * std::f64::consts::PI / omega;
@@ -554,7 +554,7 @@ fn angstrom_rows(
 /// True for depth profiles (values at 3 or more positions at each of fewer times than
 /// positions), as opposed to sensor records (few positions, many times).
 fn looks_like_profiles(d: &Dataset, n_positions: usize) -> bool {
-    let mut times: Vec<usize> = d.map.iter().map(|m| m.1).collect();
+    let mut times: Vec<usize> = d.outputs().map(|m| m.1).collect();
     times.sort_unstable();
     times.dedup();
     n_positions >= 3 && times.len() <= n_positions
@@ -601,7 +601,7 @@ fn profile_rows(
     }
     let mut by_time: std::collections::BTreeMap<usize, (Vec<f64>, Vec<f64>)> =
         std::collections::BTreeMap::new();
-    for (&(o, k), &y) in d.map.iter().zip(&d.observed) {
+    for ((o, k), &y) in d.outputs().zip(&d.observed) {
         let x = positions[o];
         let depth = if from_left { x } else { thickness - x };
         let e = by_time.entry(k).or_default();

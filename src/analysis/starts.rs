@@ -82,7 +82,7 @@ fn exposure_starts(experiment: &Experiment) -> Vec<(usize, f64, String)> {
             .map
             .iter()
             .zip(&d.observed)
-            .map(|(&(_, k), &y)| (d.request.times[k], y))
+            .map(|(&(_, k), &y)| (d.request.times[k as usize], y))
             .collect();
         rows.sort_by(|a, b| a.0.total_cmp(&b.0));
         rows.dedup_by(|a, b| a.0 == b.0);
@@ -334,7 +334,7 @@ impl Search {
         for d in experiment.datasets.iter() {
             let model = d.model_for(values)?;
             let sol = self.solver.solve(&model, &d.request_for(values))?;
-            let raw: Vec<f64> = d.map.iter().map(|&(o, k)| sol.get(o, k)).collect();
+            let raw: Vec<f64> = d.outputs().map(|(o, k)| sol.get(o, k)).collect();
             let w: Vec<f64> = d
                 .sigma
                 .iter()

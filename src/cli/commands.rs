@@ -265,9 +265,8 @@ pub fn simulate(args: &SimulateArgs) -> anyhow::Result<Outcome> {
         let columns: Vec<String> = match spec.layout {
             LayoutName::Sensors => {
                 let sensors = spec.sensors.as_deref().unwrap_or_default();
-                ds.map
-                    .iter()
-                    .map(|&(o, _)| sensors.get(o).map(|s| s.column.clone()).unwrap_or_default())
+                ds.outputs()
+                    .map(|(o, _)| sensors.get(o).map(|s| s.column.clone()).unwrap_or_default())
                     .collect()
             }
             _ => vec![spec.value_column.clone().unwrap_or_default(); ds.len()],

@@ -282,10 +282,14 @@ pub struct Dataset {
     pub weighting: Weighting,
     /// Data-file line of each observed value (from 1).
     pub lines: Vec<u64>,
-    /// Position of each observed value, m, where the observable is a value at a position.
+    /// Position of each observed value, m, where the observable is a value at a position;
+    /// empty when no observed value has one (a time series of an amount, an uptake or a
+    /// flux), so `positions.get(i).copied().flatten()` reads it either way.
     pub positions: Vec<Option<f64>>,
     /// For each observed value: (observable index, time index) in the solver's [`Solution`].
-    pub map: Vec<(usize, usize)>,
+    /// Stored as `u32` pairs (8 bytes per observed value instead of 16); read them with
+    /// [`Dataset::output_of`].
+    pub map: Vec<(u32, u32)>,
     /// Unit label of the measured value as written, for reports.
     pub value_unit: String,
     /// Warnings of the data loader.
@@ -394,7 +398,7 @@ impl Dataset {
         let scale = self.scale.map_or(1.0, |n| n.get(params));
         let offset = self.offset.map_or(0.0, |n| n.get(params));
         let n_times = self.request.times.len();
-        for (&(o, k), f) in self.map.iter().zip(out.iter_mut()) {
+        for ((o, k), f) in self.outputs().zip(out.iter_mut()) {
             let s = solution.series(o);
             if s.len() != n_times {
                 return Err(Error::Internal(format!(
@@ -641,6 +645,17 @@ impl Dataset {
         out
     }
 
+    /// (observable index, time index) of observed value `i` in the solver's [`Solution`].
+    pub fn output_of(&self, i: usize) -> (usize, usize) {
+        let (o, k) = self.map[i];
+        (o as usize, k as usize)
+    }
+
+    /// [`Dataset::output_of`] for every observed value, in data order.
+    pub fn outputs(&self) -> impl ExactSizeIterator<Item = (usize, usize)> + Clone + '_ {
+        self.map.iter().map(|&(o, k)| (o as usize, k as usize))
+    }
+
     /// [`Dataset::predict_into`] into a new vector.
     pub fn predict(&self, params: &[f64], solution: &Solution) -> Result<Vec<f64>> {
         let mut out = Vec::with_capacity(self.map.len());
@@ -651,7 +666,7 @@ impl Dataset {
     /// The same run asked for other outputs (`request` on the data's clock, `map` into its
     /// solution), with no observations: for model curves on a grid of its own. The data
     /// vectors are not copied.
-    pub fn resampled(&self, request: Request, map: Vec<(usize, usize)>) -> Dataset {
+    pub fn resampled(&self, request: Request, map: Vec<(u32, u32)>) -> Dataset {
         Dataset {
             name: self.name.clone(),
             file: self.file.clone(),
@@ -2581,9 +2596,7 @@ fn dataset(
                 ObserveName::CumulativeIn => Observable::CumulativeIn(end_needed(b)?),
                 ObserveName::CumulativeOut => Observable::CumulativeOut(end_needed(b)?),
             };
-            if positions.is_empty() {
-                positions = vec![None; s.time.len()];
-            }
+            // Without a position (amount, uptake, flux...) `positions` stays empty.
             map = (0..s.time.len()).map(|t| (0, t)).collect();
             request.times = s.time;
             request.observables = vec![obs];
@@ -2885,16 +2898,27 @@ fn dataset(
         Some(s) => Some(b.num(s, Kind::Measured, Check::Any, &k("offset"))?),
         None => None,
     };
+    // Output indices as u32 pairs (see `Dataset::map`).
+    let map = map
+        .into_iter()
+        .map(|(o, t)| Some((u32::try_from(o).ok()?, u32::try_from(t).ok()?)))
+        .collect::<Option<Vec<(u32, u32)>>>()
+        .ok_or_else(|| {
+            b.err(
+                InputKind::BadValue,
+                &k("file"),
+                "more than 4 294 967 295 readings in one dataset: split the file into several \
+                 datasets",
+            )
+        })?;
     // The loader grows these as it reads; give back the spare capacity (up to half of
     // each at 10⁶ points).
-    let mut request = request;
     request.times.shrink_to_fit();
     for v in [&mut observed, &mut sigma] {
         v.shrink_to_fit();
     }
     lines.shrink_to_fit();
     positions.shrink_to_fit();
-    map.shrink_to_fit();
     Ok(Dataset {
         name: d.name.clone(),
         file: path,

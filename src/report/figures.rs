@@ -122,10 +122,11 @@ pub fn figures(analysis: &Analysis) -> Result<Vec<NamedFigure>> {
             format!("value [{}]", ds.value_unit)
         };
         let pred = &analysis.predictions[d];
-        let times: Vec<f64> = ds.map.iter().map(|&(_, k)| ds.request.times[k]).collect();
+        let times: Vec<f64> = ds.outputs().map(|(_, k)| ds.request.times[k]).collect();
         let t_max = times.iter().cloned().fold(0.0, f64::max);
         let (tscale, tunit) = time_axis(t_max);
-        let is_profile = ds.positions.iter().all(|p| p.is_some())
+        let is_profile = ds.positions.len() == ds.len()
+            && ds.positions.iter().all(|p| p.is_some())
             && ds.request.observables.len() > 1
             && ds.request.times.len() < ds.request.observables.len();
         let res: Vec<f64> = ds
@@ -151,8 +152,8 @@ pub fn figures(analysis: &Analysis) -> Result<Vec<NamedFigure>> {
                     times: ds.request.times.clone(),
                     observables: dense_x.iter().map(|&x| Observable::ValueAt(x)).collect(),
                 },
-                (0..ds.request.times.len())
-                    .flat_map(|k| (0..dense_x.len()).map(move |o| (o, k)))
+                (0..ds.request.times.len() as u32)
+                    .flat_map(|k| (0..dense_x.len() as u32).map(move |o| (o, k)))
                     .collect(),
             );
             let sol = solver.solve(&model, &dense.request_for(params))?;
@@ -170,14 +171,14 @@ pub fn figures(analysis: &Analysis) -> Result<Vec<NamedFigure>> {
                     .iter()
                     .zip(&ds.positions)
                     .zip(&ds.observed)
-                    .filter(|((m, _), _)| m.1 == k)
+                    .filter(|((m, _), _)| m.1 as usize == k)
                     .map(|((_, p), y)| (p.unwrap_or(0.0) / xs, unit.from_si(*y)))
                     .unzip();
                 let rr: Vec<f64> = ds
                     .map
                     .iter()
                     .zip(&res)
-                    .filter(|(m, _)| m.1 == k)
+                    .filter(|(m, _)| m.1 as usize == k)
                     .map(|(_, r)| *r)
                     .collect();
                 let tl = format!("t = {} {tunit}", short(t / tscale));
@@ -229,8 +230,8 @@ pub fn figures(analysis: &Analysis) -> Result<Vec<NamedFigure>> {
                     times: dense_t.clone(),
                     observables: ds.request.observables.clone(),
                 },
-                (0..no)
-                    .flat_map(|o| (0..dense_t.len()).map(move |k| (o, k)))
+                (0..no as u32)
+                    .flat_map(|o| (0..dense_t.len() as u32).map(move |k| (o, k)))
                     .collect(),
             );
             let sol = solver.solve(&model, &dense.request_for(params))?;
@@ -254,14 +255,14 @@ pub fn figures(analysis: &Analysis) -> Result<Vec<NamedFigure>> {
                     .map
                     .iter()
                     .zip(&ds.observed)
-                    .filter(|(m, _)| m.0 == o)
-                    .map(|(m, y)| (ds.request.times[m.1] / tscale, unit.from_si(*y)))
+                    .filter(|(m, _)| m.0 as usize == o)
+                    .map(|(m, y)| (ds.request.times[m.1 as usize] / tscale, unit.from_si(*y)))
                     .unzip();
                 let rr: Vec<f64> = ds
                     .map
                     .iter()
                     .zip(&res)
-                    .filter(|(m, _)| m.0 == o)
+                    .filter(|(m, _)| m.0 as usize == o)
                     .map(|(_, r)| *r)
                     .collect();
                 resid_series.push(thin_resid.markers(Series::markers(

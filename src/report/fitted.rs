@@ -159,7 +159,7 @@ pub fn write_fitted(analysis: &Analysis, out: &mut dyn Write) -> io::Result<()> 
     for (d, ds) in e.datasets.iter().enumerate() {
         let pred = &analysis.predictions[d];
         let vu = value_unit(&ds.value_unit);
-        for (i, (&(_, k), &y)) in ds.map.iter().zip(&ds.observed).enumerate() {
+        for (i, ((_, k), &y)) in ds.outputs().zip(&ds.observed).enumerate() {
             let t = ds.request.times.get(k).copied().unwrap_or(f64::NAN);
             let pos = ds.positions.get(i).copied().flatten();
             let r = f.residuals.get(offset + i).copied().unwrap_or(f64::NAN);

@@ -914,6 +914,7 @@ impl Solver {
     /// the O(h³) local error of the step itself (E. Hairer, S. P. Nørsett, G. Wanner, *Solving
     /// Ordinary Differential Equations I*, 2nd ed., 1993, §II.6, dense output). Uses `u_n`,
     /// `f_n` (start of the step) and `u`, `f_1` (end), so it runs before `f_n` is replaced.
+    #[allow(clippy::too_many_arguments)]
     fn interpolate_outputs(
         &mut self,
         model: &Model,

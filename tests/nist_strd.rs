@@ -147,3 +147,46 @@ nist!(mgh17_start1, mgh17_start2, "MGH17", mgh17);
 nist!(boxbod_start1, boxbod_start2, "BoxBOD", misra1a);
 nist!(eckerle4_start1, eckerle4_start2, "Eckerle4", eckerle4);
 nist!(rat43_start1, rat43_start2, "Rat43", rat43);
+
+/// Misra1a with every observation repeated `k` times, so that the Jacobian (n × 2) exceeds
+/// `LARGE_JACOBIAN_ENTRIES` and the engine works from its factor R and forms central
+/// differences a few columns at a time. Repeating every row k times leaves the least-squares
+/// estimates unchanged and multiplies JᵀJ and the RSS by k (common practice), so the
+/// certified values hold with RSS k·RSS and standard deviations
+/// `sd · sqrt((n − p) / (k n − p))`.
+#[test]
+fn misra1a_replicated_past_the_large_jacobian_size() {
+    let (x, y) = read_dat("Misra1a.dat");
+    let c = certified("Misra1a");
+    let p = c.value.len();
+    let k = fickfit::fit::rfactor::LARGE_JACOBIAN_ENTRIES / (p * x.len()) + 1;
+    let xs: Vec<f64> = x.iter().flat_map(|&v| std::iter::repeat_n(v, k)).collect();
+    let ys: Vec<f64> = y.iter().flat_map(|&v| std::iter::repeat_n(v, k)).collect();
+    let n = xs.len();
+    assert!(n * p > fickfit::fit::rfactor::LARGE_JACOBIAN_ENTRIES);
+    let specs: Vec<ParamSpec> = c
+        .start1
+        .iter()
+        .enumerate()
+        .map(|(i, &s)| ParamSpec::new(format!("b{}", i + 1), "-", s))
+        .collect();
+    let problem = FnProblem::new(n, move |b: &[f64], out: &mut [f64]| -> Result<()> {
+        for ((o, xi), yi) in out.iter_mut().zip(&xs).zip(&ys) {
+            *o = yi - misra1a(b, *xi);
+        }
+        Ok(())
+    });
+    let res = fit(problem, specs, &FitOptions::default()).unwrap();
+    let sd_scale = ((c.n - p) as f64 / (n - p) as f64).sqrt();
+    for (j, q) in res.parameters.iter().enumerate() {
+        let se = q.std_error.unwrap();
+        assert!(
+            rel(q.estimate, c.value[j]) <= 1e-6,
+            "{}: {}",
+            q.name,
+            q.estimate
+        );
+        assert!(rel(se, c.sd[j] * sd_scale) <= 1e-4, "{}: se {se}", q.name);
+    }
+    assert!(rel(res.goodness.rss, k as f64 * c.rss) <= 1e-6);
+}

@@ -126,9 +126,9 @@ fn differences<P: ResidualProblem>(
     Some(DMatrix::from_vec(m, p, buf))
 }
 
-/// Below this many Jacobian entries (16 MB) every central-difference point is evaluated in
-/// one batch; above it, a few columns at a time.
-const CENTRAL_BATCH_ENTRIES: usize = 1 << 21;
+/// Up to this many Jacobian entries every central-difference point is evaluated in one
+/// batch; above it, a few columns at a time.
+const CENTRAL_BATCH_ENTRIES: usize = crate::fit::rfactor::LARGE_JACOBIAN_ENTRIES;
 
 /// Central differences. Column j is formed in the slot of its plus point; the minus points
 /// go to a scratch buffer. For a large Jacobian the columns are taken in groups of about

@@ -46,7 +46,7 @@ use serde::Serialize;
 
 use crate::fit::jacobian::{jacobian, Difference};
 use crate::fit::problem::{Evaluator, ResidualProblem};
-use crate::fit::rfactor::r_factor;
+use crate::fit::rfactor::{r_factor, LARGE_JACOBIAN_ENTRIES};
 
 /// Settings of the Levenberg–Marquardt search.
 #[derive(Debug, Clone, Serialize)]
@@ -221,9 +221,15 @@ pub fn levenberg_marquardt<P: ResidualProblem>(
             break StopReason::JacobianFailed;
         };
         out.iterations += 1;
-        // Everything below comes from the small factor R of J = QR and Qᵀr (see
-        // `rfactor`): J itself (n × p) is neither copied nor factorised whole.
-        let (tri, qtr) = r_factor(&jac, Some(&r));
+        // `tri` and `qtr` stand for J and r: below, only JᵀJ, Jᵀr, ‖Jδ‖ and rᵀJδ and the SVD of
+        // J D⁻¹ are used, and these are the same for (J, r) and for (R, Qᵀr) with J = QR. A
+        // large Jacobian is replaced by its small factor R (see `rfactor`), so that it is
+        // neither copied nor factorised whole; a small one is used as it is.
+        let (tri, qtr) = if jac.nrows() * p > LARGE_JACOBIAN_ENTRIES {
+            r_factor(&jac, Some(&r))
+        } else {
+            ((*jac).clone(), DVector::from_column_slice(&r))
+        };
         drop(jac);
         let grad = tri.transpose() * &qtr;
         let rnorm = f.sqrt();

@@ -18,6 +18,12 @@
 
 use nalgebra::{DMatrix, DVector};
 
+/// Above this many entries (16 MB) a Jacobian counts as large: the Levenberg–Marquardt step
+/// works from its factor R instead of a copy, and central differences are formed a few
+/// columns at a time. Both ways agree to rounding; rounding can still change the number of
+/// iterations of a fit whose residuals carry the solver's step-to-step noise.
+pub const LARGE_JACOBIAN_ENTRIES: usize = 1 << 21;
+
 /// Rows of `J` taken per block.
 const BLOCK_ROWS: usize = 512;
 

@@ -10,6 +10,11 @@
 //! A trial point whose residuals cannot be evaluated (the model returned an error or a
 //! non-finite value) is rejected like a point that increased `F`.
 //!
+//! A large Jacobian (more than [`crate::fit::rfactor::LARGE_JACOBIAN_ENTRIES`] entries) is
+//! replaced by its triangular factor `R` (`J = QR`) and `r` by `Qᵀr`: every quantity above
+//! (`Jᵀr`, the column norms, the SVD's `S` and `V`, `Uᵀr`, `‖r + Jδ‖²`) is the same for both
+//! pairs, and the factor is p × p however many residuals there are.
+//!
 //! The initial damping is conservative, `λ₀ = 100 s_max²` (s_max: largest singular value of
 //! the scaled Jacobian), so the first steps are short, close to scaled steepest descent, and
 //! the damping then falls by up to a factor 3 per successful step. A small `λ₀` lets the first

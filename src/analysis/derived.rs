@@ -245,8 +245,7 @@ fn time_lags(analysis: &Analysis, name: &str, dataset: usize) -> Vec<Derived> {
         .map(|m| m.geometry.layers.iter().map(|l| l.thickness).sum::<f64>());
     // The data's own time lag, as the time-lag method reads it.
     let mut rows: Vec<(f64, f64)> = d
-        .map
-        .iter()
+        .outputs()
         .zip(&d.observed)
         .enumerate()
         .filter(|(i, _)| {
@@ -254,7 +253,7 @@ fn time_lags(analysis: &Analysis, name: &str, dataset: usize) -> Vec<Derived> {
                 .as_ref()
                 .is_some_and(|dl| dl.is_censored(*i))
         })
-        .map(|(_, (&(_, k), &y))| (d.request.times[k as usize], y))
+        .map(|(_, ((_, k), &y))| (d.request.times[k], y))
         .collect();
     rows.sort_by(|a, b| a.0.total_cmp(&b.0));
     let t: Vec<f64> = rows.iter().map(|r| r.0).collect();

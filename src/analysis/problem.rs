@@ -137,20 +137,23 @@ impl ExperimentProblem {
             .collect::<Result<Vec<()>>>()
             .map(|_| ())
     }
+}
 
-    /// Residuals of dataset `d` at `params` from its run's last solve, into its part of
-    /// `out`: predictions first, then (y − f)/(σ s) in place, one-sided for a reading
-    /// censored at a detection limit.
-    fn write_residuals(&self, d: usize, params: &[f64], out: &mut [f64]) -> Result<()> {
-        let dataset = &self.experiment.datasets[d];
-        let s = self.scales[d];
-        let part = &mut out[self.offsets[d]..self.offsets[d + 1]];
-        dataset.predict_to(params, self.runs[d].solver.solution(), part)?;
-        for (i, o) in part.iter_mut().enumerate() {
-            *o = dataset.residual(i, *o, dataset.sigma[i] * s);
-        }
-        Ok(())
+/// Weighted residuals of `dataset` at `params` from `solution`, into `out` (one entry per
+/// observed value): predictions first, then (y − f)/(σ s) in place with the dataset scale `s`,
+/// one-sided for a reading censored at a detection limit.
+fn write_residuals(
+    dataset: &Dataset,
+    params: &[f64],
+    solution: &Solution,
+    scale: f64,
+    out: &mut [f64],
+) -> Result<()> {
+    dataset.predict_to(params, solution, out)?;
+    for (i, o) in out.iter_mut().enumerate() {
+        *o = dataset.residual(i, *o, dataset.sigma[i] * scale);
     }
+    Ok(())
 }
 
 /// Whether `params` lie within [`REPLAY_RADIUS`] of `base`, parameter by parameter; the run's
@@ -299,8 +302,14 @@ impl ResidualProblem for ExperimentProblem {
             )));
         }
         self.solve_all(params)?;
-        for d in 0..self.runs.len() {
-            self.write_residuals(d, params, out)?;
+        for (d, dataset) in self.experiment.datasets.iter().enumerate() {
+            write_residuals(
+                dataset,
+                params,
+                self.runs[d].solver.solution(),
+                self.scales[d],
+                &mut out[self.offsets[d]..self.offsets[d + 1]],
+            )?;
         }
         Ok(())
     }
@@ -333,13 +342,8 @@ impl ResidualProblem for ExperimentProblem {
             };
             let base_start = run.last_start;
             let (scale, range) = (self.scales[d], self.offsets[d]..self.offsets[d + 1]);
-            // Predictions into the residual slice, then residuals in place.
             let write = |point: &[f64], sol: &Solution, out: &mut [f64]| {
-                dataset.predict_to(point, sol, out)?;
-                for (i, o) in out.iter_mut().enumerate() {
-                    *o = dataset.residual(i, *o, dataset.sigma[i] * scale);
-                }
-                Ok(())
+                write_residuals(dataset, point, sol, scale, out)
             };
             let mut tasks = Vec::new();
             let mut unchanged = Vec::new();

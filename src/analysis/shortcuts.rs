@@ -144,8 +144,7 @@ pub fn estimate_all(experiment: &Experiment, params: &[f64]) -> Vec<ShortcutEsti
 /// A dataset's points as (observable index, time, observed SI), without readings censored at
 /// a detection limit (their value is only a bound, which no shortcut can use).
 fn points(d: &Dataset) -> Vec<(usize, f64, f64)> {
-    d.map
-        .iter()
+    d.outputs()
         .zip(&d.observed)
         .enumerate()
         .filter(|(i, _)| {
@@ -153,7 +152,7 @@ fn points(d: &Dataset) -> Vec<(usize, f64, f64)> {
                 .as_ref()
                 .is_some_and(|dl| dl.is_censored(*i))
         })
-        .map(|(_, (&(o, k), &y))| (o as usize, d.request.times[k as usize], y))
+        .map(|(_, ((o, k), &y))| (o, d.request.times[k], y))
         .collect()
 }
 

@@ -79,10 +79,9 @@ fn exposure_starts(experiment: &Experiment) -> Vec<(usize, f64, String)> {
             continue;
         }
         let mut rows: Vec<(f64, f64)> = d
-            .map
-            .iter()
+            .outputs()
             .zip(&d.observed)
-            .map(|(&(_, k), &y)| (d.request.times[k as usize], y))
+            .map(|((_, k), &y)| (d.request.times[k], y))
             .collect();
         rows.sort_by(|a, b| a.0.total_cmp(&b.0));
         rows.dedup_by(|a, b| a.0 == b.0);

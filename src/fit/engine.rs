@@ -514,21 +514,22 @@ pub fn fit<P: ResidualProblem>(
     let tcrit = t_critical(opts.level, dof as f64)?;
     // The entries of `v` in `range` that are observations (borrowed when all are).
     fn observed_part<'a>(
-        inactive: &[bool],
+        inactive: Option<&[bool]>,
         range: std::ops::Range<usize>,
         v: &'a [f64],
     ) -> std::borrow::Cow<'a, [f64]> {
-        match v.get(range.clone()) {
-            Some(all) if !inactive.iter().any(|x| *x) => std::borrow::Cow::Borrowed(all),
+        match (inactive, v.get(range.clone())) {
+            (None, Some(all)) => std::borrow::Cow::Borrowed(all),
             _ => std::borrow::Cow::Owned(
                 range
-                    .filter(|&i| !inactive[i])
+                    .filter(|&i| !inactive.is_some_and(|m| m[i]))
                     .filter_map(|i| v.get(i).copied())
                     .collect(),
             ),
         }
     }
-    let active = |range, v| observed_part(&inactive, range, v);
+    let censored = inactive.iter().any(|x| *x).then_some(inactive.as_slice());
+    let active = |range, v| observed_part(censored, range, v);
     let jac = jacobian(&mut ev, &u, &r, Difference::Central)
         .ok_or_else(|| Error::Fit("the Jacobian at the optimum could not be formed".into()))?;
     let rss = lm.rss;

@@ -54,6 +54,38 @@ pub fn jacobian<P: ResidualProblem>(
     Some(jac)
 }
 
+/// `u` with its entry `j` set to `x`.
+fn shifted(u: &[f64], j: usize, x: f64) -> Vec<f64> {
+    let mut v = u.to_vec();
+    v[j] = x;
+    v
+}
+
+/// Turn `col`, which holds the residuals at the plus point `u + h e_j` when `plus_ok`, into
+/// column j of the Jacobian: central `(r₊ − r₋)/(2h)` when both sides were evaluated, else
+/// the one-sided difference against `r0` on the side that was. `false` when neither was.
+fn difference_column(
+    col: &mut [f64],
+    plus_ok: bool,
+    minus: Option<&[f64]>,
+    r0: &[f64],
+    h: f64,
+) -> bool {
+    match (plus_ok, minus) {
+        (true, Some(rm)) => col
+            .iter_mut()
+            .zip(rm)
+            .for_each(|(c, m)| *c = (*c - m) / (2.0 * h)),
+        (true, None) => col.iter_mut().zip(r0).for_each(|(c, r)| *c = (*c - r) / h),
+        (false, Some(rm)) => col
+            .iter_mut()
+            .zip(r0.iter().zip(rm))
+            .for_each(|(c, (r, m))| *c = (r - m) / h),
+        (false, None) => return false,
+    }
+    true
+}
+
 /// Residuals at `points` into one column-major buffer, `m` values per point.
 fn evaluate<P: ResidualProblem>(
     ev: &mut Evaluator<P>,
@@ -85,23 +117,18 @@ fn differences<P: ResidualProblem>(
         Difference::Central => f64::EPSILON.cbrt(),
     };
     let steps: Vec<(f64, f64)> = u.iter().map(|&x| step(x, c)).collect();
-    let shifted = |j: usize, x: f64| {
-        let mut v = u.to_vec();
-        v[j] = x;
-        v
-    };
     if scheme == Difference::Central {
         return central(ev, u, r0, &steps);
     }
     // Points u + h_j e_j. The residuals of point j are overwritten by column j of the
     // Jacobian, so the matrix takes no extra memory.
-    let points: Vec<Vec<f64>> = (0..p).map(|j| shifted(j, steps[j].0)).collect();
+    let points: Vec<Vec<f64>> = (0..p).map(|j| shifted(u, j, steps[j].0)).collect();
     let (mut buf, ok) = evaluate(ev, u, &points, m);
     // A forward point that failed: try the backward side instead.
     let failed: Vec<usize> = (0..p).filter(|&j| !ok[j]).collect();
     let back: Vec<Vec<f64>> = failed
         .iter()
-        .map(|&j| shifted(j, u[j] - steps[j].1))
+        .map(|&j| shifted(u, j, u[j] - steps[j].1))
         .collect();
     let (back_buf, back_ok) = if back.is_empty() {
         (Vec::new(), Vec::new())
@@ -109,19 +136,14 @@ fn differences<P: ResidualProblem>(
         evaluate(ev, u, &back, m)
     };
     for (j, &(_, h)) in steps.iter().enumerate() {
-        let col = &mut buf[j * m..(j + 1) * m];
-        if ok[j] {
-            col.iter_mut().zip(r0).for_each(|(c, r)| *c = (*c - r) / h);
-            continue;
-        }
-        let k = failed.iter().position(|&f| f == j)?;
-        if !back_ok[k] {
+        let minus = failed
+            .iter()
+            .position(|&f| f == j)
+            .filter(|&k| back_ok[k])
+            .map(|k| &back_buf[k * m..(k + 1) * m]);
+        if !difference_column(&mut buf[j * m..(j + 1) * m], ok[j], minus, r0, h) {
             return None;
         }
-        let rm = &back_buf[k * m..(k + 1) * m];
-        col.iter_mut()
-            .zip(r0.iter().zip(rm))
-            .for_each(|(c, (r, m))| *c = (r - m) / h);
     }
     Some(DMatrix::from_vec(m, p, buf))
 }
@@ -146,18 +168,15 @@ fn central<P: ResidualProblem>(
     } else {
         rayon::current_num_threads().div_ceil(2).clamp(1, p.max(1))
     };
-    let shifted = |j: usize, x: f64| {
-        let mut v = u.to_vec();
-        v[j] = x;
-        v
-    };
     let mut buf = vec![0.0; m * p];
     let mut scratch = vec![0.0; m * group];
     for (g, cols) in buf.chunks_mut(m * group).enumerate() {
         let j0 = g * group;
         let width = cols.len() / m;
-        let mut points: Vec<Vec<f64>> = (j0..j0 + width).map(|j| shifted(j, steps[j].0)).collect();
-        points.extend((j0..j0 + width).map(|j| shifted(j, u[j] - steps[j].1)));
+        let mut points: Vec<Vec<f64>> = (j0..j0 + width)
+            .map(|j| shifted(u, j, steps[j].0))
+            .collect();
+        points.extend((j0..j0 + width).map(|j| shifted(u, j, u[j] - steps[j].1)));
         let ok = {
             let mut outs: Vec<&mut [f64]> = cols
                 .chunks_mut(m)
@@ -166,19 +185,9 @@ fn central<P: ResidualProblem>(
             ev.eval_batch(u, &points, &mut outs)
         };
         for (c, col) in cols.chunks_mut(m).enumerate() {
-            let h = steps[j0 + c].1;
-            let rm = &scratch[c * m..(c + 1) * m];
-            match (ok[c], ok[width + c]) {
-                (true, true) => col
-                    .iter_mut()
-                    .zip(rm)
-                    .for_each(|(c, m)| *c = (*c - m) / (2.0 * h)),
-                (true, false) => col.iter_mut().zip(r0).for_each(|(c, r)| *c = (*c - r) / h),
-                (false, true) => col
-                    .iter_mut()
-                    .zip(r0.iter().zip(rm))
-                    .for_each(|(c, (r, m))| *c = (r - m) / h),
-                (false, false) => return None,
+            let minus = ok[width + c].then(|| &scratch[c * m..(c + 1) * m]);
+            if !difference_column(col, ok[c], minus, r0, steps[j0 + c].1) {
+                return None;
             }
         }
     }
@@ -255,6 +264,44 @@ mod tests {
             assert!((j[(i, 0)] + 1.0).abs() < 1e-8, "{i}");
             assert!((j[(i, 1)] + xi).abs() < 1e-8, "{i}");
             assert!((j[(i, 2)] + xi * xi).abs() < 1e-8, "{i}");
+        }
+    }
+
+    #[test]
+    fn a_side_that_cannot_be_evaluated_falls_back_to_the_other() {
+        // r_i = y_i − a exp(−k x_i), evaluable only for a ≤ 2 (the model "fails" above), and
+        // the start is a = 2 exactly: the plus point of column a fails, so the forward scheme
+        // must use the backward difference and the central scheme the one-sided one.
+        // ∂r/∂a = −exp(−k x), ∂r/∂k = a x exp(−k x) (hand derivation). r is linear in a, so
+        // the one-sided column a is exact to rounding; column k carries the scheme's own error
+        // (forward O(h), h ≈ 1.5e-8; central O(h²), h ≈ 6e-6). Treating the failed side as
+        // zeros, or giving up, would miss by orders of magnitude.
+        let x: Vec<f64> = (0..8).map(|i| 0.5 * i as f64).collect();
+        let xs = x.clone();
+        let prob = FnProblem::new(8, move |p: &[f64], out: &mut [f64]| {
+            if p[0] > 2.0 {
+                return Err(crate::error::Error::Internal("outside the model".into()));
+            }
+            for i in 0..8 {
+                out[i] = 1.0 - p[0] * (-p[1] * xs[i]).exp();
+            }
+            Ok(())
+        });
+        let set = ParamSet::new(vec![
+            ParamSpec::new("a", "-", 2.0),
+            ParamSpec::new("k", "1/s", 0.7),
+        ])
+        .unwrap();
+        let mut ev = Evaluator::new(prob, set.clone());
+        let u = set.to_internal(&set.start_full());
+        let r0 = ev.residuals(&u).unwrap();
+        for (scheme, tol) in [(Difference::Forward, 1e-6), (Difference::Central, 1e-8)] {
+            let j = jacobian(&mut ev, &u, &r0, scheme).unwrap();
+            for (i, &xi) in x.iter().enumerate() {
+                let e = (-0.7 * xi).exp();
+                assert!((j[(i, 0)] + e).abs() < tol, "{scheme:?} {i} {}", j[(i, 0)]);
+                assert!((j[(i, 1)] - 2.0 * xi * e).abs() < tol, "{scheme:?} {i}");
+            }
         }
     }
 }

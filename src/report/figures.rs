@@ -167,18 +167,16 @@ pub fn figures(analysis: &Analysis) -> Result<Vec<NamedFigure>> {
             let (mut thin_data, mut thin_resid) = (Thinned::default(), Thinned::default());
             for (k, &t) in ds.request.times.iter().enumerate() {
                 let (xd, yd): (Vec<f64>, Vec<f64>) = ds
-                    .map
-                    .iter()
+                    .outputs()
                     .zip(&ds.positions)
                     .zip(&ds.observed)
-                    .filter(|((m, _), _)| m.1 as usize == k)
+                    .filter(|((m, _), _)| m.1 == k)
                     .map(|((_, p), y)| (p.unwrap_or(0.0) / xs, unit.from_si(*y)))
                     .unzip();
                 let rr: Vec<f64> = ds
-                    .map
-                    .iter()
+                    .outputs()
                     .zip(&res)
-                    .filter(|(m, _)| m.1 as usize == k)
+                    .filter(|(m, _)| m.1 == k)
                     .map(|(_, r)| *r)
                     .collect();
                 let tl = format!("t = {} {tunit}", short(t / tscale));
@@ -252,17 +250,15 @@ pub fn figures(analysis: &Analysis) -> Result<Vec<NamedFigure>> {
                     _ => ds.name.clone(),
                 };
                 let (td, yd): (Vec<f64>, Vec<f64>) = ds
-                    .map
-                    .iter()
+                    .outputs()
                     .zip(&ds.observed)
-                    .filter(|(m, _)| m.0 as usize == o)
-                    .map(|(m, y)| (ds.request.times[m.1 as usize] / tscale, unit.from_si(*y)))
+                    .filter(|(m, _)| m.0 == o)
+                    .map(|(m, y)| (ds.request.times[m.1] / tscale, unit.from_si(*y)))
                     .unzip();
                 let rr: Vec<f64> = ds
-                    .map
-                    .iter()
+                    .outputs()
                     .zip(&res)
-                    .filter(|(m, _)| m.0 as usize == o)
+                    .filter(|(m, _)| m.0 == o)
                     .map(|(_, r)| *r)
                     .collect();
                 resid_series.push(thin_resid.markers(Series::markers(

@@ -6,11 +6,11 @@
 //! Jacobian `J_s = J C⁻¹`, `C = diag(‖J_j‖)`: `(JᵀJ)⁻¹ = C⁻¹ V S⁻² Vᵀ C⁻¹`, never by
 //! inverting `JᵀJ` itself. The SVD is taken of the column-scaled triangular factor `R`
 //! (`J = QR`, [`crate::fit::rfactor`]), which has the same singular values and right singular
-//! vectors as `J_s` and is p × p however long `J` is. Column scaling makes the rank test independent of the parameters'
-//! units: singular values `s_i < rank_tol · s_max` are treated as zero. A parameter with a
-//! component `|V_jk| > 0.1` along such a null direction `k` is not identifiable: its variance
-//! and correlations are reported as absent (`None`), not as numbers. The others are estimable
-//! and get the pseudo-inverse values.
+//! vectors as `J_s` and is p × p however long `J` is. Column scaling makes the rank test
+//! independent of the parameters' units: singular values `s_i < rank_tol · s_max` are
+//! treated as zero. A parameter with a component `|V_jk| > 0.1` along such a null direction
+//! `k` is not identifiable: its variance and correlations are reported as absent (`None`),
+//! not as numbers. The others are estimable and get the pseudo-inverse values.
 //!
 //! A parameter can also be declared *insensitive* by the caller (see
 //! [`crate::fit::engine`]: a log-scale parameter whose change by a factor e moves the

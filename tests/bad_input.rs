@@ -990,7 +990,7 @@ fn experiment_file_encodings() {
 fn fingerprint(e: &Experiment) -> (Vec<f64>, Vec<f64>) {
     let starts = e.start_values();
     let ds = &e.datasets[0];
-    (starts, [ds.observed.clone(), ds.sigma.clone()].concat())
+    (starts, [ds.observed.clone(), ds.sigma.to_vec()].concat())
 }
 
 #[test]

@@ -4,7 +4,7 @@
 
 use std::path::{Path, PathBuf};
 
-use fickfit::experiment::{self, Experiment, Weighting};
+use fickfit::experiment::{self, Experiment, Sigmas, Weighting};
 use fickfit::model::{DiffusivityLaw, EndCondition, Initial, Shape, Signal};
 use fickfit::solver::{Observable, Solver, SolverOptions};
 use fickfit::{Error, InputKind};
@@ -99,6 +99,18 @@ fn film_example_loads_with_values_as_written() {
         s.observed[0]
     );
     assert!(s.sigma.iter().all(|&x| close(x, 3e-9)));
+    assert_eq!(s.sigma.len(), 16);
+    // A constant sigma is held once, not once per reading.
+    assert!(
+        matches!(s.sigma, Sigmas::Shared { value, len: 16 } if close(value, 3e-9)),
+        "{:?}",
+        s.sigma
+    );
+    assert!(close(s.sigma[15], 3e-9));
+    // A series of one quantity reads the solver's values in order.
+    assert!(s.reads_in_order());
+    assert!(s.outputs().enumerate().all(|(i, m)| m == (0, i)));
+    assert_eq!(s.outputs().len(), 16);
     assert_eq!(s.weighting, Weighting::Absolute);
     assert_eq!(s.lines[0], 3, "after a comment and the header");
     assert!(close(s.request.times[1], 120.0), "2 min");
@@ -205,7 +217,8 @@ fn heated_rod_example_loads() {
         close(d.observed[21], 21.96 + ZERO_C),
         "T2 at t = 0 (sensor-major order)"
     );
-    assert_eq!(d.map[21], (1, 0));
+    assert_eq!(d.output_of(21), (1, 0));
+    assert!(!d.reads_in_order(), "two sensors: not one series in order");
     assert!(
         d.sigma.iter().all(|&s| close(s, 0.1)),
         "0.1 degC of sigma is 0.1 K"
@@ -233,7 +246,7 @@ fn depth_profiles_example_loads() {
     assert_eq!(d.request.observables.len(), 10, "ten distinct depths");
     assert_eq!(d.len(), 30);
     // Row 3 of the second profile: 50 um at 4 h.
-    assert_eq!(d.map[12], (2, 1));
+    assert_eq!(d.output_of(12), (2, 1));
     assert_eq!(d.positions[12].map(|x| (x * 1e6).round()), Some(50.0));
     assert_eq!(d.lines[0], 3);
     assert_eq!(d.weighting, Weighting::Scaled);
@@ -625,7 +638,7 @@ fn every_example_solves_at_its_start_values() {
     let mut solver = Solver::new(e.solver.clone()).unwrap();
     let sol = solver.solve(&d.model_for(&p).unwrap(), &d.request).unwrap();
     let pred = d.predict(&p, sol).unwrap();
-    for (i, &(_, k)) in d.map.iter().enumerate() {
+    for (i, (_, k)) in d.outputs().enumerate() {
         if k == 0 {
             assert!((pred[i] - (22.0 + ZERO_C)).abs() < 1e-9, "{}", pred[i]);
         }

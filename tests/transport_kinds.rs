@@ -630,9 +630,8 @@ heat_capacity_uncertainty = "{u_cp} J/(kg K)"
         .unwrap();
         let truth = experiment::load(dir.path().join("truth.toml")).unwrap();
         let cols: Vec<String> = truth.datasets[0]
-            .map
-            .iter()
-            .map(|&(o, _)| format!("T{}", o + 1))
+            .outputs()
+            .map(|(o, _)| format!("T{}", o + 1))
             .collect();
         let data =
             fickfit::simulate::rewrite_data_file(&truth, 0, &cols, &truth.start_values(), 0.05, 11)

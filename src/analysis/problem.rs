@@ -150,10 +150,15 @@ fn write_residuals(
     out: &mut [f64],
 ) -> Result<()> {
     dataset.predict_to(params, solution, out)?;
+    weigh(dataset, scale, out);
+    Ok(())
+}
+
+/// Turn the predictions of `dataset` in `out` into its weighted residuals, in place.
+fn weigh(dataset: &Dataset, scale: f64, out: &mut [f64]) {
     for (i, o) in out.iter_mut().enumerate() {
         *o = dataset.residual(i, *o, dataset.sigma[i] * scale);
     }
-    Ok(())
 }
 
 /// Whether `params` lie within [`REPLAY_RADIUS`] of `base`, parameter by parameter; the run's
@@ -230,7 +235,7 @@ impl<'p> Lent<'p> {
     fn take(pool: &'p std::sync::Mutex<Vec<Solver>>, template: &Solver) -> Self {
         let spare = pool.lock().ok().and_then(|mut p| p.pop());
         Lent {
-            solver: Some(spare.unwrap_or_else(|| template.clone())),
+            solver: Some(spare.unwrap_or_else(|| template.spare())),
             pool,
         }
     }
@@ -262,6 +267,27 @@ struct Task<'d, 'o> {
     /// This run's part of the point's residual vector.
     out: &'o mut [f64],
     result: Result<()>,
+}
+
+impl Task<'_, '_> {
+    /// Solve the task's model on `solver`, replaying the base steps when `replay` (and there
+    /// are some), with error control otherwise; `into_out`: record the values straight into
+    /// the task's residual slice (a dataset that [`Dataset::reads_in_order`]).
+    fn solve(&mut self, solver: &mut Solver, replay: bool, into_out: bool) -> Result<()> {
+        let plan = match (&self.schedule, replay) {
+            (Some(s), true) => StepPlan::Replay(s),
+            _ => StepPlan::Adaptive,
+        };
+        if into_out {
+            solver
+                .solve_into(&self.model, &self.request, plan, self.out)
+                .map(|_| ())
+        } else {
+            solver
+                .solve_with(&self.model, &self.request, plan)
+                .map(|_| ())
+        }
+    }
 }
 
 impl ResidualProblem for ExperimentProblem {
@@ -377,24 +403,25 @@ impl ResidualProblem for ExperimentProblem {
             // writes its residuals as soon as it is solved, so no solution is kept.
             let pool = std::sync::Mutex::new(std::mem::take(&mut run.spares));
             let main_solver = &run.solver;
+            // A series of one quantity is recorded straight into the task's residual slice and
+            // weighed there, so a spare holds no solution at all.
+            let in_order = dataset.reads_in_order();
             tasks.par_iter_mut().for_each_init(
                 || Lent::take(&pool, main_solver),
                 |lent, task| {
                     let solver = lent.solver();
-                    let plan = match &task.schedule {
-                        Some(s) => StepPlan::Replay(s),
-                        None => StepPlan::Adaptive,
-                    };
-                    let solved = match solver.solve_with(&task.model, &task.request, plan) {
-                        Ok(_) => Ok(()),
-                        Err(_) if task.schedule.is_some() => {
-                            solver.solve(&task.model, &task.request).map(|_| ())
-                        }
-                        Err(e) => Err(e),
+                    let solved = match task.solve(solver, task.schedule.is_some(), in_order) {
+                        Err(_) if task.schedule.is_some() => task.solve(solver, false, in_order),
+                        other => other,
                     };
                     task.result = solved.and_then(|()| {
-                        let sol = solver.solution();
-                        write(task.point, sol, task.out)
+                        if in_order {
+                            dataset.predict_in_place(task.point, task.out)?;
+                            weigh(dataset, scale, task.out);
+                            Ok(())
+                        } else {
+                            write(task.point, solver.solution(), task.out)
+                        }
                     });
                 },
             );

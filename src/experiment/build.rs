@@ -92,6 +92,109 @@ pub enum Weighting {
     Relative(f64),
 }
 
+/// Standard uncertainties σ_i of a dataset's observed values, SI: one value shared by every
+/// reading (a constant `sigma`, or none given) is stored once, not once per reading (8 MB
+/// saved at 10⁶ readings). Read σ_i as `sigma[i]`, or with [`Sigmas::iter`].
+#[derive(Debug, Clone, PartialEq)]
+pub enum Sigmas {
+    /// All readings have the same standard uncertainty.
+    Shared {
+        /// σ of every reading, SI.
+        value: f64,
+        /// Number of readings.
+        len: usize,
+    },
+    /// One per reading, in data order.
+    Each(Vec<f64>),
+}
+
+impl Default for Sigmas {
+    fn default() -> Self {
+        Sigmas::Each(Vec::new())
+    }
+}
+
+impl Sigmas {
+    /// Number of readings.
+    pub fn len(&self) -> usize {
+        match self {
+            Sigmas::Shared { len, .. } => *len,
+            Sigmas::Each(v) => v.len(),
+        }
+    }
+
+    /// True when there are no readings.
+    pub fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
+
+    /// σ_i of every reading, in data order.
+    pub fn iter(&self) -> SigmaIter<'_> {
+        match self {
+            Sigmas::Shared { value, len } => SigmaIter::Shared(std::iter::repeat_n(value, *len)),
+            Sigmas::Each(v) => SigmaIter::Each(v.iter()),
+        }
+    }
+
+    /// One value per reading, as a vector.
+    pub fn to_vec(&self) -> Vec<f64> {
+        self.iter().copied().collect()
+    }
+}
+
+impl std::ops::Index<usize> for Sigmas {
+    type Output = f64;
+
+    /// σ_i; panics when `i` is not below [`Sigmas::len`], as a slice does.
+    fn index(&self, i: usize) -> &f64 {
+        match self {
+            Sigmas::Shared { value, len } => {
+                assert!(i < *len, "reading {i} of {len}");
+                value
+            }
+            Sigmas::Each(v) => &v[i],
+        }
+    }
+}
+
+/// Iterator over [`Sigmas`].
+#[derive(Debug, Clone)]
+pub enum SigmaIter<'a> {
+    /// A shared value, repeated.
+    Shared(std::iter::RepeatN<&'a f64>),
+    /// One per reading.
+    Each(std::slice::Iter<'a, f64>),
+}
+
+impl<'a> Iterator for SigmaIter<'a> {
+    type Item = &'a f64;
+
+    fn next(&mut self) -> Option<&'a f64> {
+        match self {
+            SigmaIter::Shared(it) => it.next(),
+            SigmaIter::Each(it) => it.next(),
+        }
+    }
+
+    fn size_hint(&self) -> (usize, Option<usize>) {
+        match self {
+            SigmaIter::Shared(it) => it.size_hint(),
+            SigmaIter::Each(it) => it.size_hint(),
+        }
+    }
+}
+
+impl ExactSizeIterator for SigmaIter<'_> {}
+
+impl<'a> IntoIterator for &'a Sigmas {
+    type Item = &'a f64;
+    type IntoIter = SigmaIter<'a>;
+
+    fn into_iter(self) -> SigmaIter<'a> {
+        self.iter()
+    }
+}
+
 /// Fit options.
 #[derive(Debug, Clone, PartialEq)]
 pub struct FitOptions {
@@ -277,19 +380,20 @@ pub struct Dataset {
     /// Observed values, SI, in data order.
     pub observed: Vec<f64>,
     /// Standard uncertainty of each observed value, SI (see [`Dataset::weighting`]).
-    pub sigma: Vec<f64>,
+    pub sigma: Sigmas,
     /// How `sigma` is to be read.
     pub weighting: Weighting,
-    /// Data-file line of each observed value (from 1).
-    pub lines: Vec<u64>,
+    /// Data-file line of each observed value (from 1), as `u32` (4 bytes per reading).
+    pub lines: Vec<u32>,
     /// Position of each observed value, m, where the observable is a value at a position;
     /// empty when no observed value has one (a time series of an amount, an uptake or a
     /// flux), so `positions.get(i).copied().flatten()` reads it either way.
     pub positions: Vec<Option<f64>>,
-    /// For each observed value: (observable index, time index) in the solver's [`Solution`].
-    /// Stored as `u32` pairs (8 bytes per observed value instead of 16); read them with
-    /// [`Dataset::output_of`].
-    pub map: Vec<(u32, u32)>,
+    /// For each observed value: (observable index, time index) in the solver's [`Solution`],
+    /// as `u32` pairs; empty when observed value i is observable 0 at time i for every i (a
+    /// time series of one quantity), which costs nothing at 10⁶ points. Read it with
+    /// [`Dataset::output_of`] or [`Dataset::outputs`].
+    map: Vec<(u32, u32)>,
     /// Unit label of the measured value as written, for reports.
     pub value_unit: String,
     /// Warnings of the data loader.
@@ -380,19 +484,19 @@ impl Dataset {
         out: &mut Vec<f64>,
     ) -> Result<()> {
         out.clear();
-        out.resize(self.map.len(), 0.0);
+        out.resize(self.n_outputs(), 0.0);
         self.predict_to(params, solution, out)
     }
 
     /// [`Dataset::predict_into`] into a slice with one entry per observed value.
     pub fn predict_to(&self, params: &[f64], solution: &Solution, out: &mut [f64]) -> Result<()> {
         self.check_len(params)?;
-        if out.len() != self.map.len() {
+        if out.len() != self.n_outputs() {
             return Err(Error::Internal(format!(
                 "{} predictions asked for dataset '{}' of {} values",
                 out.len(),
                 self.name,
-                self.map.len()
+                self.n_outputs()
             )));
         }
         let scale = self.scale.map_or(1.0, |n| n.get(params));
@@ -647,18 +751,60 @@ impl Dataset {
 
     /// (observable index, time index) of observed value `i` in the solver's [`Solution`].
     pub fn output_of(&self, i: usize) -> (usize, usize) {
-        let (o, k) = self.map[i];
-        (o as usize, k as usize)
+        match self.map.get(i) {
+            Some(&(o, k)) => (o as usize, k as usize),
+            None => (0, i),
+        }
     }
 
     /// [`Dataset::output_of`] for every observed value, in data order.
     pub fn outputs(&self) -> impl ExactSizeIterator<Item = (usize, usize)> + Clone + '_ {
-        self.map.iter().map(|&(o, k)| (o as usize, k as usize))
+        (0..self.n_outputs()).map(|i| self.output_of(i))
+    }
+
+    /// Number of predicted values: one per observed value (or per entry of the output map of
+    /// a [`Dataset::resampled`] copy, which has no observations).
+    fn n_outputs(&self) -> usize {
+        if self.map.is_empty() {
+            self.observed.len()
+        } else {
+            self.map.len()
+        }
+    }
+
+    /// Whether observed value i is the solver's observable 0 at requested time i, for every i:
+    /// then the solver's values ([`crate::solver::Solver::solve_into`]) are the predictions
+    /// before scale and offset, in data order.
+    pub fn reads_in_order(&self) -> bool {
+        self.map.is_empty()
+            && self.request.observables.len() == 1
+            && self.request.times.len() == self.observed.len()
+    }
+
+    /// [`Dataset::predict_to`] in place, for a dataset that [`Dataset::reads_in_order`]:
+    /// `values` holds the solver's values in data order and becomes the predictions
+    /// `offset + scale × value`.
+    pub fn predict_in_place(&self, params: &[f64], values: &mut [f64]) -> Result<()> {
+        self.check_len(params)?;
+        if !self.reads_in_order() || values.len() != self.len() {
+            return Err(Error::Internal(format!(
+                "{} values given for dataset '{}' of {} values in order",
+                values.len(),
+                self.name,
+                self.len()
+            )));
+        }
+        let scale = self.scale.map_or(1.0, |n| n.get(params));
+        let offset = self.offset.map_or(0.0, |n| n.get(params));
+        for v in values.iter_mut() {
+            *v = offset + scale * *v;
+        }
+        Ok(())
     }
 
     /// [`Dataset::predict_into`] into a new vector.
     pub fn predict(&self, params: &[f64], solution: &Solution) -> Result<Vec<f64>> {
-        let mut out = Vec::with_capacity(self.map.len());
+        let mut out = Vec::with_capacity(self.n_outputs());
         self.predict_into(params, solution, &mut out)?;
         Ok(out)
     }
@@ -674,7 +820,7 @@ impl Dataset {
             key: self.key.clone(),
             request,
             observed: Vec::new(),
-            sigma: Vec::new(),
+            sigma: Sigmas::default(),
             weighting: self.weighting,
             lines: Vec::new(),
             positions: Vec::new(),
@@ -2845,7 +2991,7 @@ fn dataset(
                 }
                 s.push(v);
             }
-            (s, Weighting::Relative(f))
+            (Sigmas::Each(s), Weighting::Relative(f))
         }
         (Some(WeightingName::Relative), _, _, None) => {
             return Err(b.err(
@@ -2863,9 +3009,9 @@ fn dataset(
         }
         (w, col, c, None) => {
             let s = match (col, c) {
-                (Some(s), _) => s,
-                (None, Some(c)) => vec![c; n],
-                (None, None) => vec![1.0; n],
+                (Some(s), _) => Sigmas::Each(s),
+                (None, Some(c)) => Sigmas::Shared { value: c, len: n },
+                (None, None) => Sigmas::Shared { value: 1.0, len: n },
             };
             let weighting = match w {
                 Some(WeightingName::Absolute) if d.sigma.is_none() && d.sigma_column.is_none() => {
@@ -2898,7 +3044,23 @@ fn dataset(
         Some(s) => Some(b.num(s, Kind::Measured, Check::Any, &k("offset"))?),
         None => None,
     };
-    // Output indices as u32 pairs (see `Dataset::map`).
+    // Output indices as u32 pairs (see `Dataset::map`), none for a series of one quantity.
+    let in_order = request.observables.len() == 1
+        && map.len() == request.times.len()
+        && map.iter().enumerate().all(|(i, &(o, t))| o == 0 && t == i);
+    let map = if in_order { Vec::new() } else { map };
+    let mut lines = lines
+        .into_iter()
+        .map(u32::try_from)
+        .collect::<std::result::Result<Vec<u32>, _>>()
+        .map_err(|_| {
+            b.err(
+                InputKind::BadValue,
+                &k("file"),
+                "a reading beyond line 4 294 967 295 of the data file: split the file into \
+                 several datasets",
+            )
+        })?;
     let map = map
         .into_iter()
         .map(|(o, t)| Some((u32::try_from(o).ok()?, u32::try_from(t).ok()?)))
@@ -2914,7 +3076,8 @@ fn dataset(
     // The loader grows these as it reads; give back the spare capacity (up to half of
     // each at 10⁶ points).
     request.times.shrink_to_fit();
-    for v in [&mut observed, &mut sigma] {
+    observed.shrink_to_fit();
+    if let Sigmas::Each(v) = &mut sigma {
         v.shrink_to_fit();
     }
     lines.shrink_to_fit();

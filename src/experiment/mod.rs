@@ -24,7 +24,8 @@ pub mod suggest;
 use std::path::Path;
 
 pub use build::{
-    Dataset, DerivedRequest, DerivedWhat, Experiment, FitOptions, Parameter, Term, Weighting,
+    Dataset, DerivedRequest, DerivedWhat, Experiment, FitOptions, Parameter, SigmaIter, Sigmas,
+    Term, Weighting,
 };
 pub use floor::{BelowLimit, DetectionLimit};
 pub use quantity::Kind;

@@ -47,9 +47,9 @@ pub fn jacobian<P: ResidualProblem>(
         return Some(j);
     }
     // The cached Jacobian belongs to another point: let it go before the new one is formed,
-    // so that at most one is held (n × p values each).
-    ev.forget_jacobian();
-    let jac = Arc::new(differences(ev, u, r0, scheme)?);
+    // so that at most one is held (n × p values each), and form the new one in its storage.
+    let storage = ev.recycle_jacobian();
+    let jac = Arc::new(differences(ev, u, r0, scheme, storage)?);
     ev.remember_jacobian(u, scheme, jac.clone());
     Some(jac)
 }
@@ -86,14 +86,16 @@ fn difference_column(
     true
 }
 
-/// Residuals at `points` into one column-major buffer, `m` values per point.
+/// Residuals at `points` into one column-major buffer (`buf`, resized), `m` values per point.
 fn evaluate<P: ResidualProblem>(
     ev: &mut Evaluator<P>,
     u: &[f64],
     points: &[Vec<f64>],
     m: usize,
+    mut buf: Vec<f64>,
 ) -> (Vec<f64>, Vec<bool>) {
-    let mut buf = vec![0.0; m * points.len()];
+    buf.clear();
+    buf.resize(m * points.len(), 0.0);
     let ok = {
         let mut outs: Vec<&mut [f64]> = buf.chunks_mut(m.max(1)).collect();
         ev.eval_batch(u, points, &mut outs)
@@ -101,11 +103,13 @@ fn evaluate<P: ResidualProblem>(
     (buf, ok)
 }
 
+/// The Jacobian by `scheme`, formed in `storage` (any length; reused when large enough).
 fn differences<P: ResidualProblem>(
     ev: &mut Evaluator<P>,
     u: &[f64],
     r0: &[f64],
     scheme: Difference,
+    storage: Vec<f64>,
 ) -> Option<DMatrix<f64>> {
     let m = r0.len();
     let p = u.len();
@@ -118,12 +122,12 @@ fn differences<P: ResidualProblem>(
     };
     let steps: Vec<(f64, f64)> = u.iter().map(|&x| step(x, c)).collect();
     if scheme == Difference::Central {
-        return central(ev, u, r0, &steps);
+        return central(ev, u, r0, &steps, storage);
     }
     // Points u + h_j e_j. The residuals of point j are overwritten by column j of the
     // Jacobian, so the matrix takes no extra memory.
     let points: Vec<Vec<f64>> = (0..p).map(|j| shifted(u, j, steps[j].0)).collect();
-    let (mut buf, ok) = evaluate(ev, u, &points, m);
+    let (mut buf, ok) = evaluate(ev, u, &points, m, storage);
     // A forward point that failed: try the backward side instead.
     let failed: Vec<usize> = (0..p).filter(|&j| !ok[j]).collect();
     let back: Vec<Vec<f64>> = failed
@@ -133,7 +137,7 @@ fn differences<P: ResidualProblem>(
     let (back_buf, back_ok) = if back.is_empty() {
         (Vec::new(), Vec::new())
     } else {
-        evaluate(ev, u, &back, m)
+        evaluate(ev, u, &back, m, Vec::new())
     };
     for (j, &(_, h)) in steps.iter().enumerate() {
         let minus = failed
@@ -161,6 +165,7 @@ fn central<P: ResidualProblem>(
     u: &[f64],
     r0: &[f64],
     steps: &[(f64, f64)],
+    mut buf: Vec<f64>,
 ) -> Option<DMatrix<f64>> {
     let (m, p) = (r0.len(), u.len());
     let group = if m * p <= CENTRAL_BATCH_ENTRIES {
@@ -168,7 +173,8 @@ fn central<P: ResidualProblem>(
     } else {
         rayon::current_num_threads().div_ceil(2).clamp(1, p.max(1))
     };
-    let mut buf = vec![0.0; m * p];
+    buf.clear();
+    buf.resize(m * p, 0.0);
     let mut scratch = vec![0.0; m * group];
     for (g, cols) in buf.chunks_mut(m * group).enumerate() {
         let j0 = g * group;

@@ -387,6 +387,16 @@ impl<P: ResidualProblem> Evaluator<P> {
         self.jacobian_cache = None;
     }
 
+    /// Drop the cached Jacobian and hand back its storage when nothing else holds it, so
+    /// that the next Jacobian is formed in it: a new n × p buffer per iteration would be
+    /// fresh pages from the system each time at 10⁶ points.
+    pub(crate) fn recycle_jacobian(&mut self) -> Vec<f64> {
+        self.jacobian_cache
+            .take()
+            .and_then(|(_, _, j)| std::sync::Arc::try_unwrap(j).ok())
+            .map_or_else(Vec::new, |m| m.data.into())
+    }
+
     /// Which residuals at `u` are not observations (see [`ResidualProblem::inactive`]).
     pub fn inactive(&mut self, u: &[f64]) -> Result<Vec<bool>> {
         self.params.fill_external(u, &mut self.full);

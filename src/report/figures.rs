@@ -6,7 +6,7 @@
 
 use super::data::Report;
 use super::plot::{
-    correlation_svg, grouped, profile_figure, qq_figure, residual_figure, thin_markers,
+    correlation_svg, grouped, profile_figure, qq_figure, residual_figure, thinned_markers,
     thinned_note, Figure, GuideKind, LegendPosition, ProfileCurve, Series, DRAW_ALL_UP_TO,
     DRAW_BINS, QQ_TAIL,
 };
@@ -73,9 +73,9 @@ struct Thinned {
 }
 
 impl Thinned {
-    /// `series` (markers) thinned for drawing, counted.
-    fn markers(&mut self, series: Series) -> Series {
-        let (series, before) = thin_markers(series);
+    /// The markers `(x, y)` thinned for drawing, counted.
+    fn markers(&mut self, label: impl Into<String>, x: &[f64], y: &[f64]) -> Series {
+        let (series, before) = thinned_markers(label, x, y);
         if let Some(n) = before {
             self.shown += series.x.len();
             self.total += n;
@@ -122,19 +122,39 @@ pub fn figures(analysis: &Analysis) -> Result<Vec<NamedFigure>> {
             format!("value [{}]", ds.value_unit)
         };
         let pred = &analysis.predictions[d];
-        let times: Vec<f64> = ds.outputs().map(|(_, k)| ds.request.times[k]).collect();
-        let t_max = times.iter().cloned().fold(0.0, f64::max);
+        let t_max = ds
+            .outputs()
+            .map(|(_, k)| ds.request.times[k])
+            .fold(0.0, f64::max);
         let (tscale, tunit) = time_axis(t_max);
         let is_profile = ds.positions.len() == ds.len()
             && ds.positions.iter().all(|p| p.is_some())
             && ds.request.observables.len() > 1
             && ds.request.times.len() < ds.request.observables.len();
-        let res: Vec<f64> = ds
-            .observed
-            .iter()
-            .zip(pred)
-            .map(|(y, p)| unit.from_si(*y) - unit.from_si(*p))
-            .collect();
+        // The points of one profile time or one observable, in the axis units: x, the
+        // observed value and the residual (observed − fitted). Filled per series, so that no
+        // more than one series is held whole.
+        let points = |of: &dyn Fn(usize, (usize, usize)) -> Option<f64>| {
+            let count = ds
+                .outputs()
+                .enumerate()
+                .filter(|&(i, m)| of(i, m).is_some())
+                .count();
+            let (mut x, mut y, mut r) = (
+                Vec::with_capacity(count),
+                Vec::with_capacity(count),
+                Vec::with_capacity(count),
+            );
+            for (i, m) in ds.outputs().enumerate() {
+                if let Some(xi) = of(i, m) {
+                    let yi = unit.from_si(ds.observed[i]);
+                    x.push(xi);
+                    y.push(yi);
+                    r.push(yi - unit.from_si(pred[i]));
+                }
+            }
+            (x, y, r)
+        };
         std_residuals.extend(
             analysis.fit.residuals[offset..offset + ds.len()]
                 .iter()
@@ -166,26 +186,11 @@ pub fn figures(analysis: &Analysis) -> Result<Vec<NamedFigure>> {
             let mut resid_series = Vec::new();
             let (mut thin_data, mut thin_resid) = (Thinned::default(), Thinned::default());
             for (k, &t) in ds.request.times.iter().enumerate() {
-                let (xd, yd): (Vec<f64>, Vec<f64>) = ds
-                    .outputs()
-                    .zip(&ds.positions)
-                    .zip(&ds.observed)
-                    .filter(|((m, _), _)| m.1 == k)
-                    .map(|((_, p), y)| (p.unwrap_or(0.0) / xs, unit.from_si(*y)))
-                    .unzip();
-                let rr: Vec<f64> = ds
-                    .outputs()
-                    .zip(&res)
-                    .filter(|(m, _)| m.1 == k)
-                    .map(|(_, r)| *r)
-                    .collect();
+                let (xd, yd, rr) =
+                    points(&|i, m| (m.1 == k).then(|| ds.positions[i].unwrap_or(0.0) / xs));
                 let tl = format!("t = {} {tunit}", short(t / tscale));
-                resid_series.push(thin_resid.markers(Series::markers(tl.clone(), xd.clone(), rr)));
-                fig = fig.with_series(thin_data.markers(Series::markers(
-                    format!("data, {tl}"),
-                    xd,
-                    yd,
-                )));
+                resid_series.push(thin_resid.markers(tl.clone(), &xd, &rr));
+                fig = fig.with_series(thin_data.markers(format!("data, {tl}"), &xd, &yd));
                 let yc: Vec<f64> = curve[k * dense_x.len()..(k + 1) * dense_x.len()]
                     .iter()
                     .map(|v| unit.from_si(*v))
@@ -249,28 +254,10 @@ pub fn figures(analysis: &Analysis) -> Result<Vec<NamedFigure>> {
                     }
                     _ => ds.name.clone(),
                 };
-                let (td, yd): (Vec<f64>, Vec<f64>) = ds
-                    .outputs()
-                    .zip(&ds.observed)
-                    .filter(|(m, _)| m.0 == o)
-                    .map(|(m, y)| (ds.request.times[m.1] / tscale, unit.from_si(*y)))
-                    .unzip();
-                let rr: Vec<f64> = ds
-                    .outputs()
-                    .zip(&res)
-                    .filter(|(m, _)| m.0 == o)
-                    .map(|(_, r)| *r)
-                    .collect();
-                resid_series.push(thin_resid.markers(Series::markers(
-                    name.clone(),
-                    td.clone(),
-                    rr,
-                )));
-                fig = fig.with_series(thin_data.markers(Series::markers(
-                    format!("data, {name}"),
-                    td,
-                    yd,
-                )));
+                let (td, yd, rr) =
+                    points(&|_, m| (m.0 == o).then(|| ds.request.times[m.1] / tscale));
+                resid_series.push(thin_resid.markers(name.clone(), &td, &rr));
+                fig = fig.with_series(thin_data.markers(format!("data, {name}"), &td, &yd));
                 let yc: Vec<f64> = curve[o * dense_t.len()..(o + 1) * dense_t.len()]
                     .iter()
                     .map(|v| unit.from_si(*v))

@@ -161,6 +161,16 @@ impl Solution {
     }
 }
 
+/// Where a solve records its observables (`values[o * n_stops + k]` for observable o at stop
+/// k), with the reference amounts of the uptake observables: the amount at t = 0 and at
+/// equilibrium.
+struct Recorder<'a> {
+    request: &'a Request,
+    amount0: f64,
+    amount_inf: f64,
+    values: &'a mut [f64],
+}
+
 /// One accepted step, for the interpolation of the outputs inside it.
 struct Span {
     t0: f64,
@@ -309,6 +319,32 @@ impl Solver {
         })
     }
 
+    /// A solver with the same options, grid and work space but none of the buffers that grow
+    /// with the number of requested times (stops, recorded values, solution): a spare for
+    /// parallel solves that costs a few cells' worth of memory, not a copy of the solution.
+    pub fn spare(&self) -> Solver {
+        Solver {
+            options: self.options.clone(),
+            grid: self.grid.clone(),
+            grid_key: self.grid_key.clone(),
+            op: self.op.clone(),
+            work: self.work.clone(),
+            schedule: Vec::new(),
+            stops: Vec::new(),
+            identity: false,
+            n_stops: 0,
+            order: Vec::new(),
+            is_output: Vec::new(),
+            is_break: Vec::new(),
+            value_reference: 0.0,
+            value_span: 0.0,
+            read_cells: Vec::new(),
+            stencils: Vec::new(),
+            at_stops: Vec::new(),
+            solution: Solution::default(),
+        }
+    }
+
     /// The grid of the last solve.
     pub fn grid(&self) -> &Grid {
         &self.grid
@@ -349,8 +385,39 @@ impl Solver {
     ) -> Result<&Solution> {
         model.validate()?;
         self.prepare(model, request)?;
-        self.run(model, request, plan)?;
+        self.run(model, request, plan, None)?;
         Ok(&self.solution)
+    }
+
+    /// Solve with the given step plan and write the values into `out`, observables × times,
+    /// observable first (the layout of [`Solution`]: `out[o * n_times + k]`). When the
+    /// requested times are strictly increasing and no boundary table row falls between them,
+    /// the values are recorded in `out` as the solve goes and the solver keeps no copy (8 bytes
+    /// per value saved, tens of MB for a long record); otherwise the solution is formed and
+    /// copied. [`Solver::solution`] is unspecified afterwards. Returns the step counts.
+    pub fn solve_into(
+        &mut self,
+        model: &Model,
+        request: &Request,
+        plan: StepPlan<'_>,
+        out: &mut [f64],
+    ) -> Result<SolveStats> {
+        let expected = request.observables.len() * request.times.len();
+        if out.len() != expected {
+            return Err(Error::Internal(format!(
+                "{} slots given for {expected} solution values",
+                out.len()
+            )));
+        }
+        model.validate()?;
+        self.prepare(model, request)?;
+        if self.identity {
+            self.run(model, request, plan, Some(out))?;
+        } else {
+            self.run(model, request, plan, None)?;
+            out.copy_from_slice(&self.solution.values);
+        }
+        Ok(self.solution.stats)
     }
 
     fn prepare(&mut self, model: &Model, request: &Request) -> Result<()> {
@@ -467,21 +534,9 @@ impl Solver {
     }
 
     /// Record observables at stop index `k` from the current state.
-    #[allow(clippy::too_many_arguments)]
-    fn record(
-        &mut self,
-        model: &Model,
-        request: &Request,
-        k: usize,
-        t: f64,
-        amount0: f64,
-        amount_inf: f64,
-        cum: (f64, f64),
-    ) {
+    fn record(&self, model: &Model, rec: &mut Recorder<'_>, k: usize, t: f64, cum: (f64, f64)) {
         let amount = self.amount(model, &self.work.u);
-        self.record_state(
-            model, request, k, t, amount0, amount_inf, cum, amount, false,
-        );
+        self.record_state(model, rec, k, t, cum, amount, false);
     }
 
     /// Record observables at stop index `k` from the amount and cumulative flows given and the
@@ -489,24 +544,23 @@ impl Solver {
     /// read).
     #[allow(clippy::too_many_arguments)]
     fn record_state(
-        &mut self,
+        &self,
         model: &Model,
-        request: &Request,
+        rec: &mut Recorder<'_>,
         k: usize,
         t: f64,
-        amount0: f64,
-        amount_inf: f64,
         cum: (f64, f64),
         amount: f64,
         interpolated: bool,
     ) {
         let ns = self.n_stops;
+        let (amount0, amount_inf) = (rec.amount0, rec.amount_inf);
         let u = if interpolated {
             &self.work.u_mid
         } else {
             &self.work.u
         };
-        for (o, obs) in request.observables.iter().enumerate() {
+        for (o, obs) in rec.request.observables.iter().enumerate() {
             let v = match *obs {
                 Observable::ValueAt(_) => match &self.stencils[o] {
                     Some(s) => s.eval(&self.op, model, u, t),
@@ -529,22 +583,59 @@ impl Solver {
                     }
                 }
             };
-            self.at_stops[o * ns + k] = v;
+            rec.values[o * ns + k] = v;
         }
     }
 
-    fn run(&mut self, model: &Model, request: &Request, plan: StepPlan<'_>) -> Result<()> {
+    /// Run the time loop and record the observables: into `into` when it is given and the
+    /// stops are the requested times (it then holds observables × times values, observable
+    /// first, as [`Solution`] stores them); otherwise into the solution.
+    fn run(
+        &mut self,
+        model: &Model,
+        request: &Request,
+        plan: StepPlan<'_>,
+        into: Option<&mut [f64]>,
+    ) -> Result<()> {
         let own = std::mem::take(&mut self.stops);
         let stops = if self.identity {
             &request.times[..]
         } else {
             &own[..]
         };
-        if self.identity {
-            // The values are recorded in request order: reuse the solution's buffer.
-            self.at_stops = std::mem::take(&mut self.solution.values);
-        }
-        let out = self.run_on(model, request, plan, stops);
+        let (nobs, nt) = (request.observables.len(), request.times.len());
+        let out = match into {
+            Some(values) if self.identity && values.len() == nobs * nt => {
+                self.run_on(model, request, plan, stops, values)
+            }
+            _ => {
+                // In request order the solution's own buffer is the recording; otherwise
+                // record per stop and pick the requested times out of it.
+                let mut values = if self.identity {
+                    std::mem::take(&mut self.solution.values)
+                } else {
+                    std::mem::take(&mut self.at_stops)
+                };
+                values.clear();
+                values.resize(nobs * stops.len(), 0.0);
+                let out = self.run_on(model, request, plan, stops, &mut values);
+                self.solution.n_times = nt;
+                if self.identity {
+                    self.solution.values = values;
+                } else {
+                    let ns = stops.len();
+                    self.solution.values.clear();
+                    self.solution.values.resize(nobs * nt, 0.0);
+                    for o in 0..nobs {
+                        for (kk, &sk) in self.order.iter().enumerate() {
+                            self.solution.values[o * nt + kk] = values[o * ns + sk];
+                        }
+                    }
+                    self.at_stops = values;
+                }
+                out
+            }
+        };
         self.stops = own;
         out
     }
@@ -559,18 +650,18 @@ impl Solver {
         !self.identity && self.is_break[k]
     }
 
+    /// The time loop over `stops`, recording the observables into `values`
+    /// (`values[o * stops.len() + k]`, every entry written).
     fn run_on(
         &mut self,
         model: &Model,
         request: &Request,
         plan: StepPlan<'_>,
         stops: &[f64],
+        values: &mut [f64],
     ) -> Result<()> {
         let n = self.grid.len();
-        let nobs = request.observables.len();
         let ns = stops.len();
-        self.at_stops.clear();
-        self.at_stops.resize(nobs * ns, 0.0);
         self.schedule.clear();
         let linear = model.is_linear();
         let mut stats = SolveStats::default();
@@ -642,9 +733,15 @@ impl Solver {
         std::mem::swap(&mut self.work.f_n, &mut self.work.fe);
         let mut flux_n = self.op.end_fluxes(model, &self.work.u, 0.0);
         let mut cum = (0.0, 0.0);
+        let mut rec = Recorder {
+            request,
+            amount0,
+            amount_inf,
+            values,
+        };
         let mut k = 0;
         while k < ns && stops[k] == 0.0 {
-            self.record(model, request, k, 0.0, amount0, amount_inf, cum);
+            self.record(model, &mut rec, k, 0.0, cum);
             k += 1;
         }
         let t_end = stops.last().copied().unwrap_or(0.0);
@@ -830,15 +927,7 @@ impl Solver {
                     flux0: flux_start,
                     flux1: flux_1,
                 };
-                self.interpolate_outputs(
-                    model,
-                    request,
-                    stops,
-                    k..k + passed,
-                    &span,
-                    amount0,
-                    amount_inf,
-                );
+                self.interpolate_outputs(model, &mut rec, stops, k..k + passed, &span);
                 k += passed;
             }
             std::mem::swap(&mut self.work.f_n, &mut self.work.f_1);
@@ -872,28 +961,14 @@ impl Solver {
             }
             if k < ns && stops[k] == t {
                 if self.is_output(k) {
-                    self.record(model, request, k, t, amount0, amount_inf, cum);
+                    self.record(model, &mut rec, k, t, cum);
                 }
                 k += 1;
             }
         }
 
-        // Scatter to request order.
-        let nt = request.times.len();
-        self.solution.n_times = nt;
-        if self.identity {
-            self.solution.values = std::mem::take(&mut self.at_stops);
-        } else {
-            self.solution.values.clear();
-            self.solution.values.resize(nobs * nt, 0.0);
-            for o in 0..nobs {
-                for (kk, &sk) in self.order.iter().enumerate() {
-                    self.solution.values[o * nt + kk] = self.at_stops[o * ns + sk];
-                }
-            }
-        }
         self.solution.stats = stats;
-        if self.solution.values.iter().any(|v| !v.is_finite()) {
+        if rec.values.iter().any(|v| !v.is_finite()) {
             return Err(Error::Solver {
                 time: t,
                 message: "the solution is not finite; check the settings for extreme values".into(),
@@ -914,16 +989,13 @@ impl Solver {
     /// the O(h³) local error of the step itself (E. Hairer, S. P. Nørsett, G. Wanner, *Solving
     /// Ordinary Differential Equations I*, 2nd ed., 1993, §II.6, dense output). Uses `u_n`,
     /// `f_n` (start of the step) and `u`, `f_1` (end), so it runs before `f_n` is replaced.
-    #[allow(clippy::too_many_arguments)]
     fn interpolate_outputs(
         &mut self,
         model: &Model,
-        request: &Request,
+        rec: &mut Recorder<'_>,
         stops: &[f64],
         ks: std::ops::Range<usize>,
         span: &Span,
-        amount0: f64,
-        amount_inf: f64,
     ) {
         if !ks.clone().any(|j| self.is_output(j)) {
             return;
@@ -965,7 +1037,7 @@ impl Solver {
                 herm(span.cum0.0, span.flux0.left, span.cum1.0, span.flux1.left),
                 herm(span.cum0.1, span.flux0.right, span.cum1.1, span.flux1.right),
             );
-            self.record_state(model, request, j, s, amount0, amount_inf, cum, amount, true);
+            self.record_state(model, rec, j, s, cum, amount, true);
         }
     }
 

@@ -82,19 +82,9 @@ pub fn bin_extremes(x: &[f64], y: &[f64], bins: usize) -> Vec<usize> {
     (0..n).filter(|&i| keep[i]).collect()
 }
 
-/// `series` with only the points at `index` (increasing, within both `x` and `y`).
-fn select(series: Series, index: &[usize]) -> Series {
-    Series {
-        x: index
-            .iter()
-            .filter_map(|&i| series.x.get(i).copied())
-            .collect(),
-        y: index
-            .iter()
-            .filter_map(|&i| series.y.get(i).copied())
-            .collect(),
-        ..series
-    }
+/// The entries of `v` at `index` (increasing, within `v`).
+fn pick(v: &[f64], index: &[usize]) -> Vec<f64> {
+    index.iter().filter_map(|&i| v.get(i).copied()).collect()
 }
 
 /// A series of markers thinned for drawing ([`bin_extremes`] with [`DRAW_BINS`] bins), and
@@ -104,8 +94,26 @@ pub fn thin_markers(series: Series) -> (Series, Option<usize>) {
     if n <= DRAW_ALL_UP_TO {
         return (series, None);
     }
-    let index = bin_extremes(&series.x, &series.y, DRAW_BINS);
-    (select(series, &index), Some(n))
+    let (thin, before) = thinned_markers(series.label.clone(), &series.x, &series.y);
+    (
+        Series {
+            x: thin.x,
+            y: thin.y,
+            ..series
+        },
+        before,
+    )
+}
+
+/// [`thin_markers`] of the points `(x, y)` without taking them: only the points drawn are
+/// copied, so a long series costs no second copy of its data.
+pub fn thinned_markers(label: impl Into<String>, x: &[f64], y: &[f64]) -> (Series, Option<usize>) {
+    let n = x.len().min(y.len());
+    let index = bin_extremes(x, y, DRAW_BINS);
+    (
+        Series::markers(label, pick(x, &index), pick(y, &index)),
+        (n > DRAW_ALL_UP_TO).then_some(n),
+    )
 }
 
 /// Ranks (from 0, increasing) of the order statistics drawn in a normal Q–Q plot of `n`
@@ -184,6 +192,25 @@ mod tests {
                 "bin {b}"
             );
         }
+    }
+
+    /// Thinning borrowed points keeps exactly the points thinning an owned series keeps, and
+    /// a short series whole (common practice: one rule, two ways in).
+    #[test]
+    fn thinning_borrowed_points_keeps_what_thinning_a_series_keeps() {
+        let n = 50_000;
+        let x: Vec<f64> = (0..n).map(|i| i as f64 * 0.5).collect();
+        let y: Vec<f64> = (0..n).map(|i| ((i * 7919) % 997) as f64).collect();
+        let (owned, before) = thin_markers(Series::markers("s", x.clone(), y.clone()));
+        let (borrowed, count) = thinned_markers("s", &x, &y);
+        assert_eq!(before, Some(n));
+        assert_eq!(count, Some(n));
+        assert_eq!(owned.x, borrowed.x);
+        assert_eq!(owned.y, borrowed.y);
+        assert!(borrowed.x.len() <= 2 * DRAW_BINS);
+        let (short, none) = thinned_markers("s", &x[..10], &y[..10]);
+        assert_eq!(none, None);
+        assert_eq!(short.y, y[..10].to_vec());
     }
 
     #[test]

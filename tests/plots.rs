@@ -12,7 +12,7 @@ use fickfit::report::plot::{
     ProfileCurve, Series, SeriesKind, Stroke, DEFAULT_HEIGHT, DEFAULT_WIDTH,
 };
 use fickfit::report::plot::{
-    thin_markers, thinned_note, DRAW_ALL_UP_TO, DRAW_BINS, QQ_SPACED, QQ_TAIL,
+    thinned_markers, thinned_note, DRAW_ALL_UP_TO, DRAW_BINS, QQ_SPACED, QQ_TAIL,
 };
 use fickfit::Error;
 use quick_xml::events::Event;
@@ -791,7 +791,7 @@ fn long_residuals(n: usize, extreme_at: usize, extreme: f64) -> (Vec<f64>, Vec<f
 fn a_million_residuals_are_thinned_for_drawing_and_keep_their_extremes() {
     let n = 1_000_000;
     let (t, r) = long_residuals(n, 654_321, -9.5);
-    let (series, before) = thin_markers(Series::markers("residuals", t.clone(), r.clone()));
+    let (series, before) = thinned_markers("residuals", &t, &r);
     assert_eq!(before, Some(n));
     assert!(series.x.len() <= 2 * DRAW_BINS, "{} drawn", series.x.len());
     // The extreme residual and the largest one are among the drawn points, at their times.
@@ -847,7 +847,7 @@ fn a_million_residuals_are_thinned_for_drawing_and_keep_their_extremes() {
 #[test]
 fn short_series_are_drawn_whole() {
     let (t, r) = long_residuals(DRAW_ALL_UP_TO, 10, 5.0);
-    let (series, before) = thin_markers(Series::markers("residuals", t.clone(), r.clone()));
+    let (series, before) = thinned_markers("residuals", &t, &r);
     assert_eq!(before, None);
     assert_eq!((series.x, series.y), (t, r.clone()));
     let fig = qq_figure(&r);

@@ -499,8 +499,7 @@ impl Dataset {
                 self.n_outputs()
             )));
         }
-        let scale = self.scale.map_or(1.0, |n| n.get(params));
-        let offset = self.offset.map_or(0.0, |n| n.get(params));
+        let (scale, offset) = self.scale_and_offset(params);
         let n_times = self.request.times.len();
         for ((o, k), f) in self.outputs().zip(out.iter_mut()) {
             let s = solution.series(o);
@@ -794,8 +793,7 @@ impl Dataset {
                 self.len()
             )));
         }
-        let scale = self.scale.map_or(1.0, |n| n.get(params));
-        let offset = self.offset.map_or(0.0, |n| n.get(params));
+        let (scale, offset) = self.scale_and_offset(params);
         for v in values.iter_mut() {
             *v = offset + scale * *v;
         }

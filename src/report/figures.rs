@@ -65,7 +65,7 @@ fn short(v: f64) -> String {
 }
 
 /// Points drawn and points held by the thinned marker series of one figure (long series are
-/// thinned for drawing only; see [`super::plot::thin_markers`]).
+/// thinned for drawing only; see [`super::plot::thinned_markers`]).
 #[derive(Debug, Default)]
 struct Thinned {
     shown: usize,

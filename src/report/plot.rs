@@ -56,8 +56,8 @@ pub use figures::{
 };
 pub use heatmap::{correlation_png, correlation_svg};
 pub use thin::{
-    bin_extremes, grouped, qq_ranks, thin_markers, thinned_markers, thinned_note, DRAW_ALL_UP_TO,
-    DRAW_BINS, QQ_SPACED, QQ_TAIL,
+    bin_extremes, grouped, qq_ranks, thinned_markers, thinned_note, DRAW_ALL_UP_TO, DRAW_BINS,
+    QQ_SPACED, QQ_TAIL,
 };
 
 /// Default width of a figure in pixels.

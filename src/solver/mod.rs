@@ -297,7 +297,12 @@ impl Solver {
     /// A solver with the given options.
     pub fn new(options: SolverOptions) -> Result<Self> {
         options.validate()?;
-        Ok(Solver {
+        Ok(Solver::blank(options))
+    }
+
+    /// A solver with (validated) `options` that holds nothing yet.
+    fn blank(options: SolverOptions) -> Self {
+        Solver {
             options,
             grid: Grid::default(),
             grid_key: None,
@@ -316,7 +321,7 @@ impl Solver {
             stencils: Vec::new(),
             at_stops: Vec::new(),
             solution: Solution::default(),
-        })
+        }
     }
 
     /// A solver with the same options, grid and work space but none of the buffers that grow
@@ -324,24 +329,11 @@ impl Solver {
     /// parallel solves that costs a few cells' worth of memory, not a copy of the solution.
     pub fn spare(&self) -> Solver {
         Solver {
-            options: self.options.clone(),
             grid: self.grid.clone(),
             grid_key: self.grid_key.clone(),
             op: self.op.clone(),
             work: self.work.clone(),
-            schedule: Vec::new(),
-            stops: Vec::new(),
-            identity: false,
-            n_stops: 0,
-            order: Vec::new(),
-            is_output: Vec::new(),
-            is_break: Vec::new(),
-            value_reference: 0.0,
-            value_span: 0.0,
-            read_cells: Vec::new(),
-            stencils: Vec::new(),
-            at_stops: Vec::new(),
-            solution: Solution::default(),
+            ..Solver::blank(self.options.clone())
         }
     }
 
@@ -411,12 +403,7 @@ impl Solver {
         }
         model.validate()?;
         self.prepare(model, request)?;
-        if self.identity {
-            self.run(model, request, plan, Some(out))?;
-        } else {
-            self.run(model, request, plan, None)?;
-            out.copy_from_slice(&self.solution.values);
-        }
+        self.run(model, request, plan, Some(out))?;
         Ok(self.solution.stats)
     }
 
@@ -587,9 +574,9 @@ impl Solver {
         }
     }
 
-    /// Run the time loop and record the observables: into `into` when it is given and the
-    /// stops are the requested times (it then holds observables × times values, observable
-    /// first, as [`Solution`] stores them); otherwise into the solution.
+    /// Run the time loop and record the observables into the solution, or into `into` when it
+    /// is given (observables × times values, observable first, as [`Solution`] stores them):
+    /// directly when the stops are the requested times, else through the solution.
     fn run(
         &mut self,
         model: &Model,
@@ -605,10 +592,8 @@ impl Solver {
         };
         let (nobs, nt) = (request.observables.len(), request.times.len());
         let out = match into {
-            Some(values) if self.identity && values.len() == nobs * nt => {
-                self.run_on(model, request, plan, stops, values)
-            }
-            _ => {
+            Some(values) if self.identity => self.run_on(model, request, plan, stops, values),
+            into => {
                 // In request order the solution's own buffer is the recording; otherwise
                 // record per stop and pick the requested times out of it.
                 let mut values = if self.identity {
@@ -633,7 +618,11 @@ impl Solver {
                     }
                     self.at_stops = values;
                 }
-                out
+                out.map(|()| {
+                    if let Some(into) = into {
+                        into.copy_from_slice(&self.solution.values);
+                    }
+                })
             }
         };
         self.stops = own;

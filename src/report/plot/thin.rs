@@ -87,26 +87,9 @@ fn pick(v: &[f64], index: &[usize]) -> Vec<f64> {
     index.iter().filter_map(|&i| v.get(i).copied()).collect()
 }
 
-/// A series of markers thinned for drawing ([`bin_extremes`] with [`DRAW_BINS`] bins), and
-/// its number of points before, when it was thinned.
-pub fn thin_markers(series: Series) -> (Series, Option<usize>) {
-    let n = series.x.len().min(series.y.len());
-    if n <= DRAW_ALL_UP_TO {
-        return (series, None);
-    }
-    let (thin, before) = thinned_markers(series.label.clone(), &series.x, &series.y);
-    (
-        Series {
-            x: thin.x,
-            y: thin.y,
-            ..series
-        },
-        before,
-    )
-}
-
-/// [`thin_markers`] of the points `(x, y)` without taking them: only the points drawn are
-/// copied, so a long series costs no second copy of its data.
+/// A series of markers of the points `(x, y)` thinned for drawing ([`bin_extremes`] with
+/// [`DRAW_BINS`] bins), and its number of points before, when it was thinned. Only the points
+/// drawn are copied, so a long series costs no second copy of its data.
 pub fn thinned_markers(label: impl Into<String>, x: &[f64], y: &[f64]) -> (Series, Option<usize>) {
     let n = x.len().min(y.len());
     let index = bin_extremes(x, y, DRAW_BINS);
@@ -194,20 +177,19 @@ mod tests {
         }
     }
 
-    /// Thinning borrowed points keeps exactly the points thinning an owned series keeps, and
-    /// a short series whole (common practice: one rule, two ways in).
+    /// The thinned series holds exactly the points [`bin_extremes`] picks, in order, and a
+    /// short series whole.
     #[test]
-    fn thinning_borrowed_points_keeps_what_thinning_a_series_keeps() {
+    fn thinned_markers_hold_the_points_bin_extremes_picks() {
         let n = 50_000;
         let x: Vec<f64> = (0..n).map(|i| i as f64 * 0.5).collect();
         let y: Vec<f64> = (0..n).map(|i| ((i * 7919) % 997) as f64).collect();
-        let (owned, before) = thin_markers(Series::markers("s", x.clone(), y.clone()));
-        let (borrowed, count) = thinned_markers("s", &x, &y);
-        assert_eq!(before, Some(n));
+        let (series, count) = thinned_markers("s", &x, &y);
+        let index = bin_extremes(&x, &y, DRAW_BINS);
         assert_eq!(count, Some(n));
-        assert_eq!(owned.x, borrowed.x);
-        assert_eq!(owned.y, borrowed.y);
-        assert!(borrowed.x.len() <= 2 * DRAW_BINS);
+        assert!(index.len() < n);
+        assert_eq!(series.x, index.iter().map(|&i| x[i]).collect::<Vec<_>>());
+        assert_eq!(series.y, index.iter().map(|&i| y[i]).collect::<Vec<_>>());
         let (short, none) = thinned_markers("s", &x[..10], &y[..10]);
         assert_eq!(none, None);
         assert_eq!(short.y, y[..10].to_vec());

@@ -37,6 +37,12 @@
 //!   errors of the optimum, so further iterations change nothing a user can see; with a model
 //!   solved numerically they would only chase the solver's own rounding. With exact data
 //!   (`‖r‖ → 0`) the offset does not become small and the other criteria decide;
+//! - stalled within the noise (only when `stall_offset_tol > 0`): a trial was rejected while
+//!   the relative offset at the current point is at most `stall_offset_tol`. With a model
+//!   solved numerically the sum of squares is only smooth to the solver's rounding, so a
+//!   Gauss–Newton gain of a few hundredths of a standard error can be below what a trial
+//!   step can resolve; the search then stops rather than raising the damping until the step
+//!   is negligible. Reported as the relative-offset stop;
 //! - zero residuals; iteration or evaluation limit.
 //!
 //! References: J. J. Moré, "The Levenberg–Marquardt algorithm: implementation and theory",
@@ -73,6 +79,11 @@ pub struct LmOptions {
     pub initial_damping: f64,
     /// Relative-offset tolerance (Bates & Watts 1981); 0 turns the criterion off (default).
     pub offset_tol: f64,
+    /// Relative-offset tolerance after a rejected trial (only with `offset_tol > 0`; 0, the
+    /// default, turns it off): when a step fails to lower the sum of squares although the
+    /// estimates are already within about this many standard errors of the linearised
+    /// optimum, the search stops there instead of raising the damping again and again.
+    pub stall_offset_tol: f64,
 }
 
 impl Default for LmOptions {
@@ -86,6 +97,7 @@ impl Default for LmOptions {
             difference: Difference::Forward,
             initial_damping: 100.0,
             offset_tol: 0.0,
+            stall_offset_tol: 0.0,
         }
     }
 }
@@ -263,6 +275,8 @@ pub fn levenberg_marquardt<P: ResidualProblem>(
         let s = &svd.singular_values;
         let utr = uu.transpose() * &qtr;
         let n_res = r.len();
+        // Relative offset at this point (+∞ when the criterion is off).
+        let mut offset = f64::INFINITY;
         if opts.offset_tol > 0.0 && n_res > p {
             let projected: f64 = utr
                 .iter()
@@ -270,7 +284,7 @@ pub fn levenberg_marquardt<P: ResidualProblem>(
                 .filter(|(_, si)| **si > 0.0)
                 .map(|(x, _)| x * x)
                 .sum();
-            let offset = (projected / p as f64).sqrt() / (f / (n_res - p) as f64).sqrt();
+            offset = (projected / p as f64).sqrt() / (f / (n_res - p) as f64).sqrt();
             if offset <= opts.offset_tol {
                 break StopReason::RelativeOffset;
             }
@@ -336,6 +350,11 @@ pub fn levenberg_marquardt<P: ResidualProblem>(
             }
             if small_step {
                 break 'outer StopReason::StepSize;
+            }
+            // A rejected step where the Gauss–Newton gain left is already below the noise of
+            // the model: further trials would only chase the solver's rounding.
+            if offset <= opts.stall_offset_tol {
+                break 'outer StopReason::RelativeOffset;
             }
             lambda *= nu;
             nu *= 2.0;

@@ -382,11 +382,10 @@ pub(crate) fn search<P: ResidualProblem>(
         initial_damping: 1e-3,
         ..opts.lm.clone()
     };
-    // The polish starts at the search's end point and never raises the sum of squares, but
-    // that sum is now the fresh model's: with replayed steps it can sit a little below (the
-    // solver's step-to-step noise), so the two are not compared. A converged polish is the
-    // result, and its model is the one reported; its Jacobian at the end point is the one
-    // the covariance reuses.
+    // The search's sum of squares comes from replayed steps, the polish's from a fresh solve
+    // at the same point; they differ by the solver's step-to-step noise, so they are not
+    // compared. A converged polish is the result: its model is the one reported, and its
+    // Jacobian at the end point is the one the covariance reuses.
     let polished = levenberg_marquardt(ev, &lm.u, &polish_opts);
     let lm = if polished.stop.converged() {
         LmOutcome {

@@ -371,9 +371,12 @@ struct Replayed<'a> {
     request: Request,
     solver: RefCell<Solver>,
     schedule: Vec<f64>,
-    /// The last model solved and its solution: a derivative with respect to a parameter the
-    /// model does not depend on (a scale, an offset, an exposure start) needs no new solve.
-    last: RefCell<Option<(Model, Solution)>>,
+    /// The models solved so far and their solutions, the estimate's first (its error-controlled
+    /// solve): the same model is not solved twice, so a derivative with respect to a parameter
+    /// the model does not depend on (a scale, an offset, an exposure start) needs no solve, and
+    /// a quantity asked for at several times (one delta method each) solves each perturbed
+    /// point once.
+    solved: RefCell<Vec<(Model, Solution)>>,
 }
 
 impl<'a> Replayed<'a> {
@@ -381,7 +384,7 @@ impl<'a> Replayed<'a> {
         let e = &*analysis.experiment;
         let mut solver = Solver::new(e.solver.clone())?;
         let model = e.datasets[dataset].model_for(&analysis.fit.estimates)?;
-        solver.solve(&model, &request)?;
+        let solution = solver.solve(&model, &request)?.clone();
         let schedule = solver.schedule().to_vec();
         Ok(Replayed {
             experiment: e,
@@ -389,7 +392,7 @@ impl<'a> Replayed<'a> {
             request,
             solver: RefCell::new(solver),
             schedule,
-            last: RefCell::new(None),
+            solved: RefCell::new(vec![(model, solution)]),
         })
     }
 
@@ -399,17 +402,20 @@ impl<'a> Replayed<'a> {
         let Ok(model) = self.experiment.datasets[self.dataset].model_for(theta) else {
             return vec![f64::NAN; n];
         };
-        let mut last = self.last.borrow_mut();
-        if let Some((m, sol)) = last.as_ref() {
-            if *m == model {
-                return sol.series(o).to_vec();
-            }
+        let mut solved = self.solved.borrow_mut();
+        if let Some((_, sol)) = solved.iter().find(|(m, _)| *m == model) {
+            return sol.series(o).to_vec();
         }
         let mut solver = self.solver.borrow_mut();
         match solver.solve_with(&model, &self.request, StepPlan::Replay(&self.schedule)) {
             Ok(sol) => {
                 let series = sol.series(o).to_vec();
-                *last = Some((model, sol.clone()));
+                // The delta method perturbs each parameter both ways: 2p + 1 models at most
+                // per quantity; beyond that the oldest perturbed one goes (never the estimate's).
+                if solved.len() > 2 * self.experiment.parameters.len() + 1 {
+                    solved.remove(1);
+                }
+                solved.push((model, sol.clone()));
                 series
             }
             Err(_) => vec![f64::NAN; n],

@@ -204,25 +204,36 @@ pub fn analyse(experiment: Arc<Experiment>, options: &AnalysisOptions) -> Result
         }
     }
     problem.set_scales(&scales)?;
-    let predictions = problem.predictions(&result.estimates)?;
-    result.warnings.extend(data_warnings(&experiment, &result));
     let mut analysis = Analysis {
         experiment,
         fit: result,
         dataset_scales: scales,
-        predictions,
+        predictions: Vec::new(),
         passes,
         shortcuts: shortcut_list,
         start_notes,
         derived: Vec::new(),
         thickness_scaling: None,
     };
-    // The derived quantities (serial solves) and the thickness check (refits, themselves in
-    // parallel) share the cores.
-    let (derived, thickness) = rayon::join(
+    // The derived quantities (serial solves), the thickness check (refits, themselves in
+    // parallel) and the predictions with the data warnings (solves at the estimates) share the
+    // cores; none of them reads what the others produce.
+    let (derived, (thickness, (predictions, warnings))) = rayon::join(
         || super::derived::derive_all(&analysis),
-        || super::thickness::check(&analysis),
+        || {
+            rayon::join(
+                || super::thickness::check(&analysis),
+                || {
+                    (
+                        problem.predictions(&analysis.fit.estimates),
+                        data_warnings(&analysis.experiment, &analysis.fit),
+                    )
+                },
+            )
+        },
     );
+    analysis.predictions = predictions?;
+    analysis.fit.warnings.extend(warnings);
     analysis.derived = derived;
     analysis.thickness_scaling = thickness;
     Ok(analysis)
